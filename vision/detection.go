@@ -1,0 +1,42 @@
+package vision
+
+// Point is a position in image pixels (x right, y down).
+type Point struct{ X, Y float64 }
+
+// Detection is one frame's measurement of the stripe. It holds no Mat and
+// may be kept by the caller.
+type Detection struct {
+	// Found is true when a centreline was fitted. When false the other
+	// measurement fields are zero and Confidence is 0.
+	Found bool
+	// Points is the fitted centreline, ordered from the near (bottom) end
+	// to the far end, at least 8 points spread over the detected length.
+	Points []Point
+	// RefRow is the image row at which OffsetPx, HeadingDeg and WidthPx
+	// are measured.
+	RefRow float64
+	// OffsetPx, HeadingDeg: see the package documentation.
+	OffsetPx   float64
+	HeadingDeg float64
+	// WidthPx is the apparent stripe width at RefRow, measured across
+	// the stripe in pixels.
+	WidthPx float64
+	// Confidence in [0, 1]: how far this measurement can be trusted.
+	Confidence float64
+	// Method names the detector that produced the measurement
+	// ("classical", "cnn", ...).
+	Method string
+	// Reason says, when Found is false or Confidence is low, why
+	// ("no candidates", "too few rows", "poor fit", ...).
+	Reason string
+}
+
+// Hint is what the tracker expects the stripe to look like in this frame.
+// A zero Hint (Valid false) means no prior: search the whole region.
+type Hint struct {
+	Valid bool
+	// OffsetPx and HeadingDeg predicted at RefRow, with 1-sigma
+	// uncertainties in the same units.
+	OffsetPx, HeadingDeg      float64
+	OffsetSigma, HeadingSigma float64
+}

@@ -1,0 +1,446 @@
+package guidance
+
+import (
+	"fmt"
+	"math"
+	"time"
+)
+
+// Measurement is one frame's detector output as the tracker sees it.
+type Measurement struct {
+	// Valid is false when the detector found nothing in the frame.
+	Valid bool
+	// OffsetPx and HeadingDeg follow the conventions of package vision.
+	OffsetPx, HeadingDeg float64
+	// Confidence in [0, 1].
+	Confidence float64
+}
+
+// Estimate is the tracker's answer for one instant. Only an Estimate with
+// Tracking true may steer a vehicle or drive cues (see Decide).
+type Estimate struct {
+	// T is the time the estimate is for (the time passed in).
+	T time.Duration
+	// State is the tracking state after this call.
+	State State
+	// Tracking is true when the estimate may be used for guidance
+	// (State Holding or Coasting).
+	Tracking bool
+	// Alarm is true when the fail-safe alarm must sound (State Lost or
+	// Regaining).
+	Alarm bool
+	// OffsetPx, HeadingDeg: the filtered estimate at T; OffsetRate (px/s)
+	// and HeadingRate (deg/s) their rates. Zero when there is no track
+	// (Lost, or Seeking before the first measurement). Outside Holding
+	// and Coasting they are for the log only.
+	OffsetPx, HeadingDeg    float64
+	OffsetRate, HeadingRate float64
+	// Confidence in [0, 1]: the confidence of the last trusted
+	// measurement while Holding, fading linearly to 0 over FailSafeAfter
+	// while Coasting, and 0 in every untrusted state.
+	Confidence float64
+	// Gated is true when this frame's measurement was rejected by the
+	// chi-square innovation gate.
+	Gated bool
+	// Reason says why the estimate is not Holding, or why the alarm is
+	// on, e.g. "no trusted measurement for 0.31 s", "camera stalled: no
+	// frame for 0.30 s". Empty while Holding normally.
+	Reason string
+}
+
+// Tracker follows the stripe over time: a constant-velocity Kalman filter
+// per channel (offset, heading), a chi-square innovation gate, coasting
+// through short dropouts and the fail-safe state machine described at
+// State.
+//
+// Time is passed in as a time.Duration since any fixed origin (frame
+// timestamps in replay, an injected Clock in live operation); it must not go
+// backwards. A call with a time earlier than one already seen is handled as
+// a fault: the tracker goes Lost with the Reason "time went backwards by
+// …", keeps its latest time, and must then reacquire the line.
+//
+// A Tracker is not safe for concurrent use; the caller serialises Update,
+// Tick and Fault (for example in the goroutine that reads frames, with the
+// watchdog sending it ticks).
+type Tracker struct {
+	cfg  Config
+	gate float64 // chi-square 2-DOF quantile of cfg.GateProbability
+
+	state   State
+	started bool
+	last    time.Duration // latest time seen
+
+	lastFrame   time.Duration // latest Update
+	lastTrusted time.Duration // latest trusted measurement, or the start
+	conf        float64       // confidence of the latest trusted measurement
+	note        string        // why the latest frame was not used
+	lostReason  string        // why the fail-safe turned on
+
+	off, head KalmanCV
+	filterT   time.Duration // time the filter state refers to
+
+	// Acquisition run (Seeking, Regaining): measurements agreeing with
+	// each other, with no gap longer than MaxFrameGap.
+	runActive bool
+	runStart  time.Duration
+	runLast   time.Duration
+
+	// Step candidate while locked: consecutive gate-rejected
+	// measurements that agree with each other.
+	cand      candidate
+	lastGated bool
+}
+
+type candidate struct {
+	active    bool
+	n         int
+	off, head KalmanCV
+	t         time.Duration
+}
+
+// NewTracker returns a Tracker in State Seeking, or the Validate error.
+func NewTracker(cfg Config) (*Tracker, error) {
+	if err := cfg.Validate(); err != nil {
+		return nil, err
+	}
+	t := &Tracker{cfg: cfg}
+	t.Reset()
+	return t, nil
+}
+
+// Config returns the settings in force.
+func (t *Tracker) Config() Config { return t.cfg }
+
+// Reset forgets everything: the tracker is Seeking again and the next call
+// starts its clock.
+func (t *Tracker) Reset() {
+	cfg := t.cfg
+	*t = Tracker{
+		cfg:  cfg,
+		gate: ChiSquareQuantile(cfg.GateProbability, 2),
+		off:  NewKalmanCV(cfg.OffsetAccel, cfg.OffsetNoisePx),
+		head: NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg),
+	}
+	t.cand.off, t.cand.head = t.off, t.head
+}
+
+// Update takes one frame's measurement taken at now. Call it once per
+// frame, whether or not the detector found anything.
+func (t *Tracker) Update(now time.Duration, m Measurement) Estimate {
+	t.lastGated = false
+	if !t.advance(now) {
+		return t.estimate(t.last)
+	}
+	t.lastFrame = now
+	t.checkTimers(now)
+	if t.state.Trusted() {
+		t.updateLocked(now, m)
+	} else {
+		t.updateAcquiring(now, m)
+	}
+	return t.estimate(now)
+}
+
+// Tick reports that time now has come with no new frame. A watchdog calls
+// it (for example every 50 ms) so that the fail-safe fires on time even
+// when the camera stops delivering frames.
+func (t *Tracker) Tick(now time.Duration) Estimate {
+	t.lastGated = false
+	if !t.advance(now) {
+		return t.estimate(t.last)
+	}
+	t.checkTimers(now)
+	if t.state == Holding && now-t.lastTrusted > t.cfg.MaxFrameGap {
+		t.state = Coasting
+		t.note = "no frame for " + secs(now-t.lastFrame)
+	}
+	return t.estimate(now)
+}
+
+// Fault reports an outside fault at now (camera gone, decoder error…): the
+// fail-safe turns on at once with reason as the Reason, and the line must
+// be reacquired for ReacquireFor before guidance resumes.
+func (t *Tracker) Fault(now time.Duration, reason string) Estimate {
+	t.lastGated = false
+	if t.advance(now) {
+		t.toLost(reason)
+	}
+	return t.estimate(t.last)
+}
+
+// Predict returns where the stripe is expected at now, for the detector's
+// hint: the predicted offset and heading and the 1-sigma spread of the
+// next measurement around them (state uncertainty plus measurement noise).
+// ok is false when there is no track to predict from (Lost, or nothing seen
+// yet). Predict does not change the tracker.
+func (t *Tracker) Predict(now time.Duration) (offset, heading, offsetSigma, headingSigma float64, ok bool) {
+	if !t.off.Ready || t.state == Lost {
+		return 0, 0, 0, 0, false
+	}
+	dt := (now - t.filterT).Seconds()
+	xo, po := t.off.Predicted(dt)
+	xh, ph := t.head.Predicted(dt)
+	offsetSigma = math.Sqrt(po[0][0] + t.off.MeasSigma*t.off.MeasSigma)
+	headingSigma = math.Sqrt(ph[0][0] + t.head.MeasSigma*t.head.MeasSigma)
+	return xo[0], xh[0], offsetSigma, headingSigma, true
+}
+
+// advance moves the tracker's clock to now. It returns false, after
+// putting the tracker in Lost, when now is earlier than a time already
+// seen.
+func (t *Tracker) advance(now time.Duration) bool {
+	if !t.started {
+		t.started = true
+		t.last, t.lastFrame, t.lastTrusted, t.filterT = now, now, now, now
+		return true
+	}
+	if now < t.last {
+		t.toLost("time went backwards by " + (t.last - now).String())
+		return false
+	}
+	t.last = now
+	return true
+}
+
+// checkTimers applies the time limits before anything else happens at now,
+// so a late frame can never hide a loss.
+func (t *Tracker) checkTimers(now time.Duration) {
+	switch t.state {
+	case Seeking, Holding, Coasting:
+		if now-t.lastTrusted >= t.cfg.FailSafeAfter {
+			t.toLost(t.lossReason(now))
+			return
+		}
+		if t.state == Seeking && t.runActive && now-t.runLast > t.cfg.MaxFrameGap {
+			t.runActive = false
+		}
+	case Regaining:
+		if now-t.runLast > t.cfg.MaxFrameGap {
+			t.runActive = false
+			t.state = Lost
+		}
+	}
+}
+
+func (t *Tracker) lossReason(now time.Duration) string {
+	switch {
+	case now-t.lastFrame >= t.cfg.FailSafeAfter:
+		return "camera stalled: no frame for " + secs(now-t.lastFrame)
+	case t.state == Seeking:
+		return "no lock for " + secs(now-t.lastTrusted) + " since start"
+	case t.note != "":
+		return "no trusted measurement for " + secs(now-t.lastTrusted) + " (" + t.note + ")"
+	default:
+		return "no trusted measurement for " + secs(now-t.lastTrusted)
+	}
+}
+
+func (t *Tracker) toLost(reason string) {
+	t.state = Lost
+	t.lostReason = reason
+	t.runActive = false
+	t.cand.active = false
+	t.off.Ready, t.head.Ready = false, false
+	t.conf = 0
+}
+
+// usable says whether m may be used at all in the current state, and if
+// not, why. A locked track accepts confidences down to HoldConfidence; an
+// acquisition needs MinConfidence.
+func (t *Tracker) usable(m Measurement) (bool, string) {
+	if !m.Valid {
+		return false, "no line in frame"
+	}
+	if !finite(m.OffsetPx) || !finite(m.HeadingDeg) || !finite(m.Confidence) {
+		return false, "measurement not a finite number"
+	}
+	min := t.cfg.MinConfidence
+	if t.state.Trusted() {
+		min = t.cfg.HoldConfidence
+	}
+	if m.Confidence < min {
+		return false, fmt.Sprintf("confidence %.2f below %.2f", m.Confidence, min)
+	}
+	return true, ""
+}
+
+func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
+	t.predictTo(now)
+	ok, why := t.usable(m)
+	if !ok {
+		t.state = Coasting
+		t.note = why
+		t.cand.active = false // a step must show in consecutive frames
+		return
+	}
+	d2 := nis(&t.off, &t.head, m)
+	if d2 <= t.gate {
+		t.accept(now, m)
+		t.cand.active = false
+		return
+	}
+	t.lastGated = true
+	t.state = Coasting
+	t.note = fmt.Sprintf("measurement rejected by gate (chi-square %.1f > %.2f)", d2, t.gate)
+	t.stepCandidate(now, m)
+}
+
+// stepCandidate follows gate-rejected measurements with a second filter;
+// when StepConfirmFrames of them in a row agree, the line really moved and
+// the track jumps to the candidate.
+func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
+	c := &t.cand
+	if c.active {
+		dt := (now - c.t).Seconds()
+		c.off.Predict(dt)
+		c.head.Predict(dt)
+		c.t = now
+		if nis(&c.off, &c.head, m) <= t.gate {
+			c.off.Update(m.OffsetPx)
+			c.head.Update(m.HeadingDeg)
+			c.n++
+		} else {
+			c.active = false
+		}
+	}
+	if !c.active {
+		c.active, c.n, c.t = true, 1, now
+		c.off.Init(m.OffsetPx, t.cfg.OffsetRateSigma)
+		c.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
+	}
+	if c.n >= t.cfg.StepConfirmFrames {
+		t.off, t.head, t.filterT = c.off, c.head, now
+		c.active = false
+		t.lastGated = false
+		t.state = Holding
+		t.lastTrusted = now
+		t.conf = m.Confidence
+		t.note = fmt.Sprintf("line moved: track re-locked after %d frames", t.cfg.StepConfirmFrames)
+	}
+}
+
+func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
+	ok, why := t.usable(m)
+	if !ok {
+		t.note = why
+		t.runActive = false
+		if t.state == Regaining {
+			t.state = Lost
+		}
+		return
+	}
+	if !t.runActive || !t.off.Ready {
+		t.startRun(now, m)
+		return
+	}
+	t.predictTo(now)
+	if d2 := nis(&t.off, &t.head, m); d2 > t.gate {
+		// The run disagrees with itself: start again from the newest
+		// measurement rather than lock onto either.
+		t.lastGated = true
+		t.note = fmt.Sprintf("measurement rejected by gate (chi-square %.1f > %.2f)", d2, t.gate)
+		t.startRun(now, m)
+		return
+	}
+	t.off.Update(m.OffsetPx)
+	t.head.Update(m.HeadingDeg)
+	t.runLast = now
+	t.lastTrusted = now
+	t.conf = m.Confidence
+	t.note = ""
+	if now-t.runStart >= t.cfg.ReacquireFor {
+		t.lock(now, m)
+	}
+}
+
+// startRun begins an acquisition run at m. The first measurement of a run
+// does not count as trusted (it agrees with nothing yet), unless
+// ReacquireFor is 0.
+func (t *Tracker) startRun(now time.Duration, m Measurement) {
+	t.off.Init(m.OffsetPx, t.cfg.OffsetRateSigma)
+	t.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
+	t.filterT = now
+	t.runActive, t.runStart, t.runLast = true, now, now
+	if t.state == Lost {
+		t.state = Regaining
+	}
+	if t.cfg.ReacquireFor == 0 {
+		t.lock(now, m)
+	}
+}
+
+func (t *Tracker) lock(now time.Duration, m Measurement) {
+	t.state = Holding
+	t.runActive = false
+	t.lastTrusted = now
+	t.conf = m.Confidence
+	t.note = ""
+	t.lostReason = ""
+}
+
+func (t *Tracker) accept(now time.Duration, m Measurement) {
+	t.off.Update(m.OffsetPx)
+	t.head.Update(m.HeadingDeg)
+	t.state = Holding
+	t.lastTrusted = now
+	t.conf = m.Confidence
+	t.note = ""
+}
+
+func (t *Tracker) predictTo(now time.Duration) {
+	dt := (now - t.filterT).Seconds()
+	t.off.Predict(dt)
+	t.head.Predict(dt)
+	t.filterT = now
+}
+
+func (t *Tracker) estimate(now time.Duration) Estimate {
+	e := Estimate{
+		T:        now,
+		State:    t.state,
+		Tracking: t.state.Trusted(),
+		Alarm:    t.state.Alarmed(),
+		Gated:    t.lastGated,
+	}
+	if t.off.Ready {
+		dt := (now - t.filterT).Seconds()
+		xo, _ := t.off.Predicted(dt)
+		xh, _ := t.head.Predicted(dt)
+		e.OffsetPx, e.OffsetRate = xo[0], xo[1]
+		e.HeadingDeg, e.HeadingRate = xh[0], xh[1]
+	}
+	switch t.state {
+	case Holding:
+		e.Confidence = t.conf
+		e.Reason = t.note
+	case Coasting:
+		fade := 1 - float64(now-t.lastTrusted)/float64(t.cfg.FailSafeAfter)
+		e.Confidence = t.conf * math.Max(0, fade)
+		e.Reason = "coasting: " + t.note
+	case Seeking:
+		e.Reason = "no lock yet"
+		if t.runActive {
+			e.Reason = fmt.Sprintf("acquiring: line seen for %s of %s", secs(now-t.runStart), secs(t.cfg.ReacquireFor))
+		} else if t.note != "" {
+			e.Reason = "no lock yet: " + t.note
+		}
+	case Lost:
+		e.Reason = t.lostReason
+	case Regaining:
+		e.Reason = fmt.Sprintf("regaining: line seen for %s of %s after %s",
+			secs(now-t.runStart), secs(t.cfg.ReacquireFor), t.lostReason)
+	}
+	return e
+}
+
+// nis is the normalised innovation squared of m against the two channel
+// filters: chi-square with 2 degrees of freedom when the filters are right.
+func nis(off, head *KalmanCV, m Measurement) float64 {
+	no, so := off.Innovation(m.OffsetPx)
+	nh, sh := head.Innovation(m.HeadingDeg)
+	return no*no/so + nh*nh/sh
+}
+
+func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+
+func secs(d time.Duration) string { return fmt.Sprintf("%.2f s", d.Seconds()) }

@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"strconv"
+	"strings"
 )
 
 // Arch is the shape of a row-anchor network. The input is one grey channel
@@ -86,7 +88,11 @@ func (a Arch) Check() error {
 }
 
 func (a Arch) String() string {
-	return fmt.Sprintf("in=%dx%d conv=%v hidden=%d rows=%d cells=%d", a.InW, a.InH, a.Conv, a.Hidden, a.Rows, a.Cells)
+	conv := make([]string, len(a.Conv))
+	for i, c := range a.Conv {
+		conv[i] = strconv.Itoa(c)
+	}
+	return fmt.Sprintf("in=%dx%d conv=%s hidden=%d rows=%d cells=%d", a.InW, a.InH, strings.Join(conv, ","), a.Hidden, a.Rows, a.Cells)
 }
 
 // Tensor is a named float32 parameter with its ONNX shape.

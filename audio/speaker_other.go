@@ -1,0 +1,14 @@
+//go:build !linux || !cgo
+
+package audio
+
+import (
+	"fmt"
+	"time"
+)
+
+// NewSpeaker needs ALSA (Linux with cgo); elsewhere it always fails with
+// ErrNoDevice.
+func NewSpeaker(rate int, buffer time.Duration) (*Speaker, error) {
+	return nil, fmt.Errorf("%w: speaker output needs Linux with cgo", ErrNoDevice)
+}

@@ -8,11 +8,12 @@ import "fmt"
 //	Seeking   ──line seen continuously for ReacquireFor──▶ Holding
 //	Seeking   ──no trusted line for FailSafeAfter since start──▶ Lost
 //	Holding   ──frame without a usable measurement──▶ Coasting
-//	Coasting  ──trusted measurement──▶ Holding
+//	Coasting  ──2 trusted measurements in a row──▶ Holding
 //	Coasting  ──no trusted measurement for FailSafeAfter──▶ Lost
 //	any       ──Fault, or time going backwards──▶ Lost
 //	Lost      ──trusted measurement──▶ Regaining
-//	Regaining ──break in the measurements──▶ Lost
+//	Regaining ──unusable frame──▶ Regaining, count restarted
+//	Regaining ──line not seen for MaxFrameGap──▶ Lost
 //	Regaining ──line seen continuously for ReacquireFor──▶ Holding
 type State int
 

@@ -89,7 +89,14 @@ type Tracker struct {
 	// measurements that agree with each other.
 	cand      candidate
 	lastGated bool
+	consec    int // consecutive accepted measurements while locked
 }
+
+// holdAfter is how many consecutive accepted measurements take a Coasting
+// track back to Holding: a little hysteresis so a measurement stream that
+// alternates between usable and unusable frames stays Coasting instead of
+// flipping state every frame (it is trusted either way).
+const holdAfter = 2
 
 type candidate struct {
 	active    bool
@@ -152,6 +159,7 @@ func (t *Tracker) Tick(now time.Duration) Estimate {
 	t.checkTimers(now)
 	if t.state == Holding && now-t.lastTrusted > t.cfg.MaxFrameGap {
 		t.state = Coasting
+		t.consec = 0
 		t.note = "no frame for " + secs(now-t.lastFrame)
 	}
 	return t.estimate(now)
@@ -215,9 +223,13 @@ func (t *Tracker) checkTimers(now time.Duration) {
 			t.runActive = false
 		}
 	case Regaining:
+		// Regaining falls back to Lost only when the line has not been
+		// seen for MaxFrameGap; a single unusable frame restarts the
+		// count but keeps the state (no chatter, the alarm is on anyway).
 		if now-t.runLast > t.cfg.MaxFrameGap {
 			t.runActive = false
 			t.state = Lost
+			t.off.Ready, t.head.Ready = false, false
 		}
 	}
 }
@@ -269,6 +281,7 @@ func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 	ok, why := t.usable(m)
 	if !ok {
 		t.state = Coasting
+		t.consec = 0
 		t.note = why
 		t.cand.active = false // a step must show in consecutive frames
 		return
@@ -281,6 +294,7 @@ func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 	}
 	t.lastGated = true
 	t.state = Coasting
+	t.consec = 0
 	t.note = fmt.Sprintf("measurement rejected by gate (chi-square %.1f > %.2f)", d2, t.gate)
 	t.stepCandidate(now, m)
 }
@@ -313,6 +327,7 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		c.active = false
 		t.lastGated = false
 		t.state = Holding
+		t.consec = t.cfg.StepConfirmFrames
 		t.lastTrusted = now
 		t.conf = m.Confidence
 		t.note = fmt.Sprintf("line moved: track re-locked after %d frames", t.cfg.StepConfirmFrames)
@@ -324,9 +339,6 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 	if !ok {
 		t.note = why
 		t.runActive = false
-		if t.state == Regaining {
-			t.state = Lost
-		}
 		return
 	}
 	if !t.runActive || !t.off.Ready {
@@ -371,6 +383,7 @@ func (t *Tracker) startRun(now time.Duration, m Measurement) {
 
 func (t *Tracker) lock(now time.Duration, m Measurement) {
 	t.state = Holding
+	t.consec = holdAfter
 	t.runActive = false
 	t.lastTrusted = now
 	t.conf = m.Confidence
@@ -381,10 +394,15 @@ func (t *Tracker) lock(now time.Duration, m Measurement) {
 func (t *Tracker) accept(now time.Duration, m Measurement) {
 	t.off.Update(m.OffsetPx)
 	t.head.Update(m.HeadingDeg)
-	t.state = Holding
+	t.consec++
+	if t.state == Holding || t.consec >= holdAfter {
+		t.state = Holding
+		t.note = ""
+	} else {
+		t.note = fmt.Sprintf("measurements back, %d of %d", t.consec, holdAfter)
+	}
 	t.lastTrusted = now
 	t.conf = m.Confidence
-	t.note = ""
 }
 
 func (t *Tracker) predictTo(now time.Duration) {
@@ -427,8 +445,12 @@ func (t *Tracker) estimate(now time.Duration) Estimate {
 	case Lost:
 		e.Reason = t.lostReason
 	case Regaining:
-		e.Reason = fmt.Sprintf("regaining: line seen for %s of %s after %s",
-			secs(now-t.runStart), secs(t.cfg.ReacquireFor), t.lostReason)
+		if t.runActive {
+			e.Reason = fmt.Sprintf("regaining: line seen for %s of %s after %s",
+				secs(now-t.runStart), secs(t.cfg.ReacquireFor), t.lostReason)
+		} else {
+			e.Reason = fmt.Sprintf("regaining: count restarted (%s) after %s", t.note, t.lostReason)
+		}
 	}
 	return e
 }

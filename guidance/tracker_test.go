@@ -1,0 +1,542 @@
+package guidance_test
+
+import (
+	"math"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/hewline/hewline/guidance"
+	"github.com/hewline/hewline/guidance/guidancetest"
+)
+
+const ms = time.Millisecond
+
+func newTracker(t *testing.T, cfg guidance.Config) *guidance.Tracker {
+	t.Helper()
+	tr, err := guidance.NewTracker(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return tr
+}
+
+func good(off, head float64) guidance.Measurement {
+	return guidance.Measurement{Valid: true, OffsetPx: off, HeadingDeg: head, Confidence: 0.9}
+}
+
+// lockOn feeds a steady line at 30 fps from 0 for d and returns the time of
+// the next frame. It fails the test if the tracker is not Holding.
+func lockOn(t *testing.T, tr *guidance.Tracker, off, head float64, d time.Duration) time.Duration {
+	t.Helper()
+	var now time.Duration
+	var e guidance.Estimate
+	for ; now < d; now += 33 * ms {
+		e = tr.Update(now, good(off, head))
+	}
+	if e.State != guidance.Holding || !e.Tracking || e.Alarm {
+		t.Fatalf("after %v of a steady line: %+v, want holding", d, e)
+	}
+	return now
+}
+
+func TestStateNames(t *testing.T) {
+	want := map[guidance.State]string{
+		guidance.Seeking: "seeking", guidance.Holding: "holding", guidance.Coasting: "coasting",
+		guidance.Lost: "lost", guidance.Regaining: "regaining", guidance.State(99): "state(99)",
+	}
+	for s, name := range want {
+		if s.String() != name {
+			t.Errorf("State(%d).String() = %q, want %q", int(s), s.String(), name)
+		}
+	}
+}
+
+func TestConfigValidate(t *testing.T) {
+	if err := guidance.DefaultConfig().Validate(); err != nil {
+		t.Fatalf("default config: %v", err)
+	}
+	tests := map[string]struct {
+		change func(*guidance.Config)
+		field  string
+	}{
+		"zero fail-safe":       {func(c *guidance.Config) { c.FailSafeAfter = 0 }, "fail_safe_after"},
+		"negative reacquire":   {func(c *guidance.Config) { c.ReacquireFor = -ms }, "reacquire_for"},
+		"zero frame gap":       {func(c *guidance.Config) { c.MaxFrameGap = 0 }, "max_frame_gap"},
+		"confidence above 1":   {func(c *guidance.Config) { c.MinConfidence = 1.2 }, "min_confidence"},
+		"hold above min":       {func(c *guidance.Config) { c.HoldConfidence = 0.6 }, "hold_confidence"},
+		"gate probability 1":   {func(c *guidance.Config) { c.GateProbability = 1 }, "gate_probability"},
+		"no step frames":       {func(c *guidance.Config) { c.StepConfirmFrames = 0 }, "step_confirm_frames"},
+		"NaN offset noise":     {func(c *guidance.Config) { c.OffsetNoisePx = math.NaN() }, "offset_noise_px"},
+		"zero heading process": {func(c *guidance.Config) { c.HeadingAccel = 0 }, "heading_accel"},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			cfg := guidance.DefaultConfig()
+			tc.change(&cfg)
+			err := cfg.Validate()
+			if err == nil || !strings.Contains(err.Error(), tc.field) || strings.Contains(err.Error(), "\n") {
+				t.Fatalf("Validate() = %v, want a one-line error naming %s", err, tc.field)
+			}
+			if _, err := guidance.NewTracker(cfg); err == nil {
+				t.Fatal("NewTracker accepted a bad config")
+			}
+		})
+	}
+}
+
+func TestGateRejectsOutlierAndCoasts(t *testing.T) {
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 20, 3, time.Second)
+	// 10 sigma of the innovation: the filter's own predicted spread.
+	_, _, sigOff, _, ok := tr.Predict(now)
+	if !ok {
+		t.Fatal("Predict not ok while holding")
+	}
+	e := tr.Update(now, good(20+10*sigOff, 3))
+	if !e.Gated || e.State != guidance.Coasting || !e.Tracking || e.Alarm {
+		t.Fatalf("10-sigma outlier: %+v, want gated, coasting, still tracking", e)
+	}
+	if math.Abs(e.OffsetPx-20) > 1 {
+		t.Errorf("outlier moved the estimate to %.2f px, want ≈ 20", e.OffsetPx)
+	}
+	// Back on the line: the track resumes (Holding after two frames).
+	var states []guidance.State
+	for i := 0; i < 3; i++ {
+		now += 33 * ms
+		e = tr.Update(now, good(20, 3))
+		if e.Gated {
+			t.Fatalf("frame %d after the outlier gated: %+v", i, e)
+		}
+		states = append(states, e.State)
+	}
+	if states[len(states)-1] != guidance.Holding {
+		t.Errorf("states after the outlier %v, want holding at the end", states)
+	}
+}
+
+func TestGateReacquiresGenuineStep(t *testing.T) {
+	// The vehicle really moved: the offset jumps by 80 px and stays.
+	// The documented behaviour: StepConfirmFrames consecutive, mutually
+	// consistent gated measurements re-lock the track onto the new line.
+	for name, frames := range map[string]int{"confirm 1": 1, "confirm 3 (default)": 3, "confirm 5": 5} {
+		t.Run(name, func(t *testing.T) {
+			cfg := guidance.DefaultConfig()
+			cfg.StepConfirmFrames = frames
+			tr := newTracker(t, cfg)
+			now := lockOn(t, tr, 0, 0, time.Second)
+			for i := 1; i <= frames; i++ {
+				e := tr.Update(now, good(80, 2))
+				now += 33 * ms
+				if e.Alarm || !e.Tracking {
+					t.Fatalf("frame %d of the step: %+v, must stay tracking (no alarm)", i, e)
+				}
+				if i < frames {
+					if !e.Gated || e.State != guidance.Coasting {
+						t.Fatalf("frame %d of %d: %+v, want gated coasting", i, frames, e)
+					}
+					continue
+				}
+				if e.Gated || e.State != guidance.Holding || math.Abs(e.OffsetPx-80) > 1 {
+					t.Fatalf("frame %d (confirming): %+v, want holding at ≈ 80 px", i, e)
+				}
+				if !strings.Contains(e.Reason, "line moved") {
+					t.Errorf("Reason %q does not say the line moved", e.Reason)
+				}
+			}
+		})
+	}
+}
+
+func TestGateAlternatingOutliersNeverRelock(t *testing.T) {
+	// Outliers that disagree with each other are not a step: the track
+	// stays on the true line.
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 0, 0, time.Second)
+	for i := 0; i < 30; i++ {
+		m := good(0, 0)
+		if i%2 == 0 {
+			m.OffsetPx = 100 * float64(1-2*(i/2%2)) // +100, −100, +100 ...
+		}
+		e := tr.Update(now, m)
+		now += 33 * ms
+		if math.Abs(e.OffsetPx) > 5 || !e.Tracking {
+			t.Fatalf("frame %d: %+v, want tracking near 0", i, e)
+		}
+	}
+}
+
+// alarmRun summarises a run of the tracker over a scene.
+type alarmRun struct {
+	firstAlarm, alarmOff time.Duration // -1 when it did not happen
+	alarmBefore          bool          // alarm at any time before the loss
+}
+
+func TestFailSafeTiming(t *testing.T) {
+	// Line visible 0–2 s, gone 2–4 s (detector finds nothing), visible
+	// again 4–6 s. The alarm must come on no earlier than FailSafeAfter
+	// and no later than FailSafeAfter + one frame interval after the last
+	// trusted measurement, never while the line is visible, and go off
+	// only after ReacquireFor of continuous trusted measurements.
+	tests := map[string]struct {
+		fps      float64
+		jitter   time.Duration
+		failSafe time.Duration
+		reacq    time.Duration
+	}{
+		"30 fps default":         {30, 0, 300 * ms, 200 * ms},
+		"10 fps default":         {10, 0, 300 * ms, 200 * ms},
+		"30 fps jittered 10 ms":  {30, 10 * ms, 300 * ms, 200 * ms},
+		"10 fps jittered 30 ms":  {10, 30 * ms, 300 * ms, 200 * ms},
+		"30 fps fail-safe 0.1 s": {30, 0, 100 * ms, 200 * ms},
+		"30 fps fail-safe 1 s":   {30, 0, time.Second, 500 * ms},
+		"15 fps fail-safe 1 s":   {15, 5 * ms, time.Second, 100 * ms},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			cfg := guidance.DefaultConfig()
+			cfg.FailSafeAfter, cfg.ReacquireFor = tc.failSafe, tc.reacq
+			tr := newTracker(t, cfg)
+			scene := guidancetest.Scene{
+				FPS: tc.fps, Length: 6 * time.Second, Jitter: tc.jitter, Seed: 7,
+				Offset:  func(t time.Duration) float64 { return 30 * math.Sin(t.Seconds()) },
+				Heading: func(t time.Duration) float64 { return 5 * math.Cos(t.Seconds()) },
+				NoisePx: 2, NoiseDeg: 0.7,
+				Missing: []guidancetest.Span{{From: 2 * time.Second, To: 4 * time.Second}},
+			}
+			interval := time.Duration(float64(time.Second)/tc.fps) + 2*tc.jitter
+			var lastTrusted, firstBack, alarmOn, alarmOff time.Duration = -1, -1, -1, -1
+			for _, f := range scene.Frames() {
+				e := tr.Update(f.T, f.M)
+				visible := f.T < 2*time.Second || f.T >= 4*time.Second
+				switch {
+				case e.Alarm && alarmOn < 0:
+					alarmOn = f.T
+					if visible {
+						t.Fatalf("alarm at %v while the line is visible: %+v", f.T, e)
+					}
+				case !e.Alarm && alarmOn >= 0 && alarmOff < 0:
+					alarmOff = f.T
+				case e.Alarm && alarmOff >= 0:
+					t.Fatalf("alarm again at %v after it went off at %v: %+v", f.T, alarmOff, e)
+				}
+				if f.T < 2*time.Second && e.Tracking {
+					lastTrusted = f.T
+				}
+				if f.T >= 4*time.Second && firstBack < 0 {
+					firstBack = f.T
+				}
+				if e.Tracking && e.Alarm {
+					t.Fatalf("tracking and alarm together at %v: %+v", f.T, e)
+				}
+			}
+			if alarmOn < 0 {
+				t.Fatal("the alarm never came on")
+			}
+			if d := alarmOn - lastTrusted; d < tc.failSafe || d > tc.failSafe+interval {
+				t.Errorf("alarm %v after the last trusted frame, want in [%v, %v]", d, tc.failSafe, tc.failSafe+interval)
+			}
+			if alarmOff < 0 {
+				t.Fatal("the alarm never went off after the line came back")
+			}
+			if d := alarmOff - firstBack; d < tc.reacq || d > tc.reacq+interval {
+				t.Errorf("alarm off %v after the line came back, want in [%v, %v]", d, tc.reacq, tc.reacq+interval)
+			}
+		})
+	}
+}
+
+func TestNoAlarmWhileLineVisible(t *testing.T) {
+	// A long clip with the line always visible, noisy, with a dropped
+	// frame now and then and one detector miss per second: never an alarm.
+	for name, fps := range map[string]float64{"30 fps": 30, "10 fps": 10} {
+		t.Run(name, func(t *testing.T) {
+			tr := newTracker(t, guidance.DefaultConfig())
+			var missing []guidancetest.Span
+			for s := time.Second; s < 60*time.Second; s += time.Second {
+				missing = append(missing, guidancetest.Span{From: s, To: s + 40*ms})
+			}
+			scene := guidancetest.Scene{
+				FPS: fps, Length: 60 * time.Second, Jitter: 8 * ms, Seed: 3,
+				Offset:  func(t time.Duration) float64 { return 60 * math.Sin(0.5*t.Seconds()) },
+				Heading: func(t time.Duration) float64 { return 8 * math.Sin(0.3*t.Seconds()) },
+				NoisePx: 4, NoiseDeg: 1.5,
+				Confidence: func(t time.Duration) float64 { return 0.55 + 0.4*math.Abs(math.Sin(t.Seconds())) },
+				Missing:    missing,
+				Dropped:    []guidancetest.Span{{From: 10 * time.Second, To: 10*time.Second + 120*ms}},
+			}
+			tracking := 0
+			frames := scene.Frames()
+			for _, f := range frames {
+				e := tr.Update(f.T, f.M)
+				if e.Alarm {
+					t.Fatalf("alarm at %v with the line visible: %+v", f.T, e)
+				}
+				if e.Tracking {
+					tracking++
+				}
+			}
+			if tracking < len(frames)-int(fps) {
+				t.Errorf("tracking in %d of %d frames", tracking, len(frames))
+			}
+		})
+	}
+}
+
+func TestTickRaisesAlarmWhenCameraStalls(t *testing.T) {
+	for name, failSafe := range map[string]time.Duration{"0.1 s": 100 * ms, "0.3 s": 300 * ms, "1 s": time.Second} {
+		t.Run(name, func(t *testing.T) {
+			cfg := guidance.DefaultConfig()
+			cfg.FailSafeAfter = failSafe
+			tr := newTracker(t, cfg)
+			now := lockOn(t, tr, 5, 1, time.Second)
+			lastFrame := now - 33*ms
+			// The watchdog ticks every 10 ms; no frames arrive.
+			for ; ; now += 10 * ms {
+				e := tr.Tick(now)
+				if e.Alarm {
+					if d := now - lastFrame; d < failSafe || d > failSafe+10*ms {
+						t.Errorf("alarm %v after the last frame, want in [%v, %v]", d, failSafe, failSafe+10*ms)
+					}
+					if e.Tracking || !strings.Contains(e.Reason, "camera stalled") {
+						t.Errorf("stall estimate %+v, want not tracking, reason naming the stall", e)
+					}
+					break
+				}
+				if !e.Tracking {
+					t.Fatalf("not tracking but no alarm at %v: %+v", now, e)
+				}
+				if now-lastFrame > 2*failSafe {
+					t.Fatal("no alarm after twice the fail-safe time")
+				}
+			}
+		})
+	}
+}
+
+func TestTickDuringHealthyStreamKeepsHolding(t *testing.T) {
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 0, 0, time.Second)
+	for i := 0; i < 90; i++ {
+		e := tr.Update(now, good(0, 0))
+		if e2 := tr.Tick(now + 20*ms); e2.State != guidance.Holding || e.State != guidance.Holding {
+			t.Fatalf("frame %d: update %v, tick %v, want holding", i, e.State, e2.State)
+		}
+		now += 33 * ms
+	}
+}
+
+func TestFaultRaisesAlarmAtOnce(t *testing.T) {
+	cfg := guidance.DefaultConfig()
+	tr := newTracker(t, cfg)
+	now := lockOn(t, tr, 0, 0, time.Second)
+	e := tr.Fault(now, "camera gone: /dev/video0 vanished")
+	if !e.Alarm || e.Tracking || e.State != guidance.Lost || e.Reason != "camera gone: /dev/video0 vanished" {
+		t.Fatalf("after Fault: %+v, want lost with the reason", e)
+	}
+	if _, _, _, _, ok := tr.Predict(now); ok {
+		t.Error("Predict ok after a fault")
+	}
+	// Frames come back: the alarm stays on for ReacquireFor.
+	back := now + 500*ms
+	for now = back; ; now += 33 * ms {
+		e = tr.Update(now, good(0, 0))
+		if !e.Alarm {
+			break
+		}
+		if e.Tracking {
+			t.Fatalf("tracking while alarmed: %+v", e)
+		}
+	}
+	if d := now - back; d < cfg.ReacquireFor || d > cfg.ReacquireFor+33*ms {
+		t.Errorf("alarm off %v after frames returned, want ReacquireFor %v (+1 frame)", d, cfg.ReacquireFor)
+	}
+	if e.State != guidance.Holding || !e.Tracking {
+		t.Errorf("after reacquiring: %+v, want holding", e)
+	}
+}
+
+func TestReacquireNeedsContinuousLine(t *testing.T) {
+	// After a loss, a line seen in short bursts (3 frames on, 1 off) never
+	// turns the alarm off: ReacquireFor must be continuous.
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 0, 0, time.Second)
+	tr.Fault(now, "test")
+	for i := 0; i < 90; i++ {
+		now += 33 * ms
+		m := good(0, 0)
+		if i%4 == 3 {
+			m = guidance.Measurement{}
+		}
+		if e := tr.Update(now, m); !e.Alarm || e.Tracking {
+			t.Fatalf("frame %d: %+v, want alarm on", i, e)
+		}
+	}
+}
+
+func TestTimeGoingBackwardsIsAFault(t *testing.T) {
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 0, 0, time.Second)
+	e := tr.Update(now-100*ms, good(0, 0))
+	if !e.Alarm || e.Tracking || !strings.Contains(e.Reason, "time went backwards by 67ms") {
+		t.Fatalf("after a backwards timestamp: %+v", e)
+	}
+	if e.T != now-33*ms {
+		t.Errorf("estimate time %v, want the latest time seen %v", e.T, now-33*ms)
+	}
+	if e := tr.Tick(now - 50*ms); !e.Alarm {
+		t.Errorf("Tick going backwards: %+v, want alarm", e)
+	}
+}
+
+func TestSeekingWithoutLineRaisesAlarm(t *testing.T) {
+	cfg := guidance.DefaultConfig()
+	tr := newTracker(t, cfg)
+	start := 5 * time.Second // any origin
+	for now := start; now < start+time.Second; now += 33 * ms {
+		e := tr.Update(now, guidance.Measurement{})
+		if e.Tracking {
+			t.Fatalf("tracking with no line: %+v", e)
+		}
+		if wantAlarm := now-start >= cfg.FailSafeAfter; e.Alarm != wantAlarm {
+			t.Fatalf("at %v since start: alarm %v, want %v (%+v)", now-start, e.Alarm, wantAlarm, e)
+		}
+	}
+	tr.Reset()
+	if e := tr.Tick(0); e.State != guidance.Seeking || e.Alarm {
+		t.Errorf("after Reset: %+v, want seeking without alarm", e)
+	}
+}
+
+func TestLowConfidenceIsNotTrusted(t *testing.T) {
+	// A line reported at confidence 0.3 (below both thresholds) never
+	// locks, and the alarm comes on after FailSafeAfter.
+	tr := newTracker(t, guidance.DefaultConfig())
+	var e guidance.Estimate
+	for now := time.Duration(0); now < time.Second; now += 33 * ms {
+		m := good(0, 0)
+		m.Confidence = 0.3
+		e = tr.Update(now, m)
+		if e.Tracking {
+			t.Fatalf("tracking at confidence 0.3: %+v", e)
+		}
+	}
+	if !e.Alarm {
+		t.Errorf("no alarm after 1 s of low-confidence measurements: %+v", e)
+	}
+}
+
+func TestConfidenceHysteresis(t *testing.T) {
+	// Confidence hovering around a threshold must not make the state
+	// chatter. Counts are of changes after the initial lock.
+	tests := map[string]struct {
+		lo, hi                 float64 // alternating confidences
+		afterFault             bool
+		maxStateChanges        int
+		wantTracking, wantLarm bool
+	}{
+		"around MinConfidence while locked":  {0.45, 0.55, false, 0, true, false},
+		"around HoldConfidence while locked": {0.35, 0.45, false, 1, true, false},
+		"around MinConfidence after a loss":  {0.45, 0.55, true, 1, false, true},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			tr := newTracker(t, guidance.DefaultConfig())
+			now := lockOn(t, tr, 0, 0, time.Second)
+			if tc.afterFault {
+				tr.Fault(now, "test")
+			}
+			prev := tr.Tick(now)
+			changes, trackChanges, alarmChanges := 0, 0, 0
+			for i := 0; i < 300; i++ {
+				now += 33 * ms
+				m := good(0, 0)
+				m.Confidence = tc.lo
+				if i%2 == 1 {
+					m.Confidence = tc.hi
+				}
+				e := tr.Update(now, m)
+				if e.State != prev.State {
+					changes++
+				}
+				if e.Tracking != prev.Tracking {
+					trackChanges++
+				}
+				if e.Alarm != prev.Alarm {
+					alarmChanges++
+				}
+				prev = e
+			}
+			if changes > tc.maxStateChanges || trackChanges != 0 || alarmChanges != 0 {
+				t.Errorf("over 300 frames: %d state changes (max %d), %d tracking changes, %d alarm changes (want 0)",
+					changes, tc.maxStateChanges, trackChanges, alarmChanges)
+			}
+			if prev.Tracking != tc.wantTracking || prev.Alarm != tc.wantLarm {
+				t.Errorf("final %+v, want tracking %v alarm %v", prev, tc.wantTracking, tc.wantLarm)
+			}
+		})
+	}
+}
+
+func TestFilterFollowsARamp(t *testing.T) {
+	// A line drifting at a steady 40 px/s and 3 deg/s: after a few
+	// seconds the constant-velocity filter reports the rates and has no
+	// lag (a CV model tracks a ramp without steady-state error).
+	tr := newTracker(t, guidance.DefaultConfig())
+	var e guidance.Estimate
+	for now := time.Duration(0); now < 3*time.Second; now += 33 * ms {
+		s := now.Seconds()
+		e = tr.Update(now, good(-50+40*s, 2+3*s))
+	}
+	s := e.T.Seconds()
+	if math.Abs(e.OffsetPx-(-50+40*s)) > 0.5 || math.Abs(e.OffsetRate-40) > 1 ||
+		math.Abs(e.HeadingDeg-(2+3*s)) > 0.1 || math.Abs(e.HeadingRate-3) > 0.2 {
+		t.Errorf("ramp estimate %+v", e)
+	}
+	off, head, so, sh, ok := tr.Predict(e.T + 33*ms)
+	s += 0.033
+	if !ok || math.Abs(off-(-50+40*s)) > 0.5 || math.Abs(head-(2+3*s)) > 0.1 || so < 4 || sh < 1.5 {
+		t.Errorf("Predict = %v %v ±%v ±%v ok %v", off, head, so, sh, ok)
+	}
+}
+
+func TestVariableFrameIntervalUsesTimestamps(t *testing.T) {
+	// Two trackers see the same ramp, one at 30 fps and one with every
+	// other frame dropped: the estimates at a shared timestamp agree.
+	a := newTracker(t, guidance.DefaultConfig())
+	b := newTracker(t, guidance.DefaultConfig())
+	var ea, eb guidance.Estimate
+	for i := 0; i <= 120; i++ { // ends on a frame both see
+		now := time.Duration(i) * 33 * ms
+		m := good(10+20*now.Seconds(), 0)
+		ea = a.Update(now, m)
+		if i%2 == 0 {
+			eb = b.Update(now, m)
+		}
+	}
+	if math.Abs(ea.OffsetPx-eb.OffsetPx) > 0.5 || math.Abs(ea.OffsetRate-eb.OffsetRate) > 1 {
+		t.Errorf("30 fps %+v vs 15 fps %+v", ea, eb)
+	}
+}
+
+func TestNonFiniteMeasurementIgnored(t *testing.T) {
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 0, 0, time.Second)
+	e := tr.Update(now, good(math.NaN(), 0))
+	if e.State != guidance.Coasting || math.IsNaN(e.OffsetPx) {
+		t.Fatalf("NaN measurement: %+v", e)
+	}
+}
+
+func BenchmarkUpdate(b *testing.B) {
+	tr, err := guidance.NewTracker(guidance.DefaultConfig())
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	var now time.Duration
+	for i := 0; b.Loop(); i++ {
+		now += 33 * ms
+		tr.Update(now, good(10*math.Sin(float64(i)*0.01), 1))
+	}
+}

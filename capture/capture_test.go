@@ -2,7 +2,6 @@ package capture_test
 
 import (
 	"errors"
-	"fmt"
 	"image"
 	"io"
 	"os"
@@ -16,18 +15,10 @@ import (
 	"gocv.io/x/gocv"
 
 	"github.com/hewline/hewline/capture"
+	"github.com/hewline/hewline/capture/matcheck"
 )
 
-func TestMain(m *testing.M) {
-	code := m.Run()
-	if code == 0 && gocv.MatProfile.Count() != 0 {
-		var b strings.Builder
-		gocv.MatProfile.WriteTo(&b, 1)
-		fmt.Fprintf(os.Stderr, "capture: %d gocv Mats left open:\n%s\n", gocv.MatProfile.Count(), b.String())
-		code = 1
-	}
-	os.Exit(code)
-}
+func TestMain(m *testing.M) { matcheck.Main(m) }
 
 // writeClip writes n frames whose mean grey level encodes the index.
 func writeClip(t *testing.T, path, fourcc string, n int, fps float64) {

@@ -1,0 +1,287 @@
+package vision
+
+import (
+	"math"
+	"sort"
+)
+
+// candidate is one stripe crossing found in one row band, in working
+// pixels (continuous coordinates).
+type candidate struct {
+	band     int     // band index, 0 at the bottom of the ROI
+	y        float64 // band centre row
+	x        float64 // centre, from the half-height edges
+	w        float64 // width between the half-height edges (horizontal)
+	contrast float64 // Weber contrast against the weaker side
+	snr      float64 // contrast step in units of the profile noise
+	sat      bool    // the stripe is saturated here (a lamp reflection?)
+	dark     bool    // darker than the floor
+	gated    bool    // within the tracker's prediction gate
+	taken    bool    // supports the line already found
+}
+
+// bandLayout is the row bands of the region of interest.
+type bandLayout struct {
+	x0, x1, y0, y1 int // ROI in working pixels, [x0, x1) × [y0, y1)
+	step           int // rows per band
+	n              int // number of bands
+}
+
+func (b bandLayout) rows(k int) (lo, hi int) {
+	hi = b.y1 - k*b.step
+	lo = max(hi-b.step, b.y0)
+	return lo, hi
+}
+
+func (b bandLayout) centre(k int) float64 {
+	lo, hi := b.rows(k)
+	return float64(lo+hi) / 2
+}
+
+func (c *Classical) layout(fr frameGeom) bandLayout {
+	r := c.cfg.ROI
+	l := bandLayout{
+		x0: int(math.Floor(r.Left * float64(fr.ww))),
+		x1: int(math.Ceil(r.Right * float64(fr.ww))),
+		y0: int(math.Floor(r.Top * float64(fr.wh))),
+		y1: int(math.Ceil(r.Bottom * float64(fr.wh))),
+	}
+	l.x1, l.y1 = min(l.x1, fr.ww), min(l.y1, fr.wh)
+	// About 80 bands whatever the size: a band is one row of a 240-row
+	// working image's ROI in three, so a slanted stripe barely smears.
+	l.step = max(1, int(math.Round(float64(l.y1-l.y0)/80)))
+	l.n = (l.y1 - l.y0) / l.step
+	return l
+}
+
+// noiseSigma estimates the evidence image's noise from the median absolute
+// difference of horizontal neighbours (a robust estimate: edges are few,
+// so the median sees the noise; σ = 1.4826·MAD/√2 for Gaussian noise).
+func (c *Classical) noiseSigma(l bandLayout, ww int) float64 {
+	var hist [512]int
+	n := 0
+	for y := l.y0; y < l.y1; y += 2 {
+		row := c.evidence[y*ww : (y+1)*ww]
+		for x := l.x0 + 1; x < l.x1; x += 2 {
+			d := math.Abs(float64(row[x] - row[x-1]))
+			i := min(int(d*4), len(hist)-1)
+			hist[i]++
+			n++
+		}
+	}
+	if n == 0 {
+		return 1
+	}
+	half, acc := n/2, 0
+	med := 0.0
+	for i, h := range hist {
+		acc += h
+		if acc > half {
+			med = (float64(i) + 0.5) / 4
+			break
+		}
+	}
+	// Floor at the quantisation noise of 8-bit data (1/√12 ≈ 0.29).
+	return math.Max(1.4826*med/math.Sqrt2, 0.29)
+}
+
+// ridgeWidths lists the centre-box widths tried, in working pixels: from
+// 2 px to 22 % of the ROI width in steps of about 1.4×, or around the
+// configured width hint.
+func (c *Classical) ridgeWidths(fr frameGeom, l bandLayout, dst []int) []int {
+	dst = dst[:0]
+	lo, hi := 2.0, 0.22*float64(l.x1-l.x0)
+	hintW := c.cfg.WidthHintPx * fr.sx
+	if c.cfg.WidthHintFrac > 0 {
+		hintW = c.cfg.WidthHintFrac * float64(fr.ww)
+	}
+	if hintW > 0 {
+		// Far rows show the stripe narrower than at the reference row.
+		lo, hi = math.Max(lo, 0.15*hintW), math.Min(hi, 2.5*hintW)
+	}
+	for w := lo; w <= hi; w *= 1.4 {
+		iw := int(math.Round(w))
+		if len(dst) == 0 || iw != dst[len(dst)-1] {
+			dst = append(dst, iw)
+		}
+	}
+	if len(dst) == 0 {
+		dst = append(dst, int(math.Max(2, math.Round(hi))))
+	}
+	return dst
+}
+
+// bandCandidates appends to c.cands the stripe candidates of band k.
+func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma float64, widths []int, wantLight, wantDark bool) {
+	lo, hi := l.rows(k)
+	n := l.x1 - l.x0
+	p, gm := c.profile[:n], c.gmax[:n]
+	for i := range p {
+		p[i], gm[i] = 0, 0
+	}
+	for y := lo; y < hi; y++ {
+		row := c.evidence[y*fr.ww+l.x0 : y*fr.ww+l.x1]
+		grow := c.grey[y*fr.ww+l.x0 : y*fr.ww+l.x1]
+		for i, v := range row {
+			p[i] += float64(v)
+			if g := float64(grow[i]); g > gm[i] {
+				gm[i] = g
+			}
+		}
+	}
+	inv := 1 / float64(hi-lo)
+	P, P2 := c.prefix[:n+1], c.prefix2[:n+1]
+	P[0], P2[0] = 0, 0
+	for i := range p {
+		p[i] *= inv
+		P[i+1] = P[i] + p[i]
+		P2[i+1] = P2[i] + p[i]*p[i]
+	}
+	sigmaBand := sigma * math.Sqrt(inv)
+	yc := l.centre(k)
+	bc := c.bandCands[:0]
+	minC, minSNR := c.cfg.MinContrast, c.cfg.MinSNR
+	for _, w := range widths {
+		f := max(1, (w+1)/2)
+		st := max(1, w/4)
+		noise := sigmaBand * math.Sqrt(1/float64(w)+1/float64(f))
+		fw := float64(w)
+		ff := float64(f)
+		// Track the previous two evaluations for local-maximum tests.
+		var prevL, prevD float64
+		var prevPos int
+		var prevOKL, prevOKD bool
+		var prev2L, prev2D float64
+		for c0 := f; c0+w+f <= n; c0 += st {
+			mc := (P[c0+w] - P[c0]) / fw
+			ml := (P[c0] - P[c0-f]) / ff
+			mr := (P[c0+w+f] - P[c0+w]) / ff
+			side := (ml+mr)/2 + 8 // +8 grey levels: no blow-up in the dark
+			sL := math.Min(mc-ml, mc-mr)
+			sD := math.Min(ml-mc, mr-mc)
+			cL, cD := sL/side, sD/side
+			// Emit the previous position if it was a local maximum.
+			if prevOKL && prevL >= prev2L && prevL > cL {
+				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevL, prevL*side/noise, false)
+			}
+			if prevOKD && prevD >= prev2D && prevD > cD {
+				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevD, prevD*side/noise, true)
+			}
+			prev2L, prev2D = prevL, prevD
+			prevL, prevD, prevPos = cL, cD, c0
+			prevOKL = wantLight && cL >= minC && sL >= minSNR*noise
+			prevOKD = wantDark && cD >= minC && sD >= minSNR*noise
+		}
+		_ = prevPos
+	}
+	// Non-maximum suppression across widths: strongest first, drop any
+	// candidate overlapping a kept one of the same polarity.
+	sort.Slice(bc, func(i, j int) bool { return bc[i].contrast*math.Sqrt(bc[i].snr) > bc[j].contrast*math.Sqrt(bc[j].snr) })
+	kept := 0
+	for i := range bc {
+		ok := true
+		for j := 0; j < kept; j++ {
+			if bc[j].dark == bc[i].dark && math.Abs(bc[j].x-bc[i].x) < 0.5*math.Max(bc[j].w, bc[i].w) {
+				ok = false
+				break
+			}
+		}
+		if ok {
+			bc[kept] = bc[i]
+			kept++
+			if kept == maxPerBand {
+				break
+			}
+		}
+	}
+	for i := 0; i < kept; i++ {
+		cd := bc[i]
+		cd.x += float64(l.x0)
+		c.cands = append(c.cands, cd)
+	}
+	c.bandCands = bc[:0]
+}
+
+const maxPerBand = 8
+
+// addCandidate refines the ridge response at centre box [c0, c0+w) into a
+// candidate (half-height edges), confirms it with the Sauvola threshold,
+// and appends it to bc.
+func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, f, band int, yc, contrast, snr float64, dark bool) []candidate {
+	n := len(p)
+	sgn := 1.0
+	if dark {
+		sgn = -1
+	}
+	ml := (P[c0] - P[c0-f]) / float64(f)
+	mr := (P[c0+w+f] - P[c0+w]) / float64(f)
+	base := (ml + mr) / 2
+	// Peak inside the centre box.
+	pk := c0
+	for i := c0; i < c0+w; i++ {
+		if sgn*p[i] > sgn*p[pk] {
+			pk = i
+		}
+	}
+	half := (base + p[pk]) / 2
+	// Walk out to the half-height crossings, at most one side box away.
+	eL := float64(c0)
+	for i := pk; i > max(c0-f, 0); i-- {
+		if sgn*p[i-1] < sgn*half {
+			eL = float64(i-1) + 0.5 + (half-p[i-1])/(p[i]-p[i-1])
+			break
+		}
+	}
+	eR := float64(c0 + w)
+	for i := pk; i < min(c0+w+f, n-1); i++ {
+		if sgn*p[i+1] < sgn*half {
+			eR = float64(i) + 0.5 + (half-p[i])/(p[i+1]-p[i])
+			break
+		}
+	}
+	if eR-eL < 1 {
+		m := (eL + eR) / 2
+		eL, eR = m-0.5, m+0.5
+	}
+	x, width := (eL+eR)/2, eR-eL
+	// Sauvola confirmation on the profile normalised to a side level of
+	// 128 and turned so that the stripe is the dark foreground: most
+	// pixels inside the edges must fall below T = m·(1 + k·(s/R − 1)),
+	// with m and s taken over a window three stripe widths wide.
+	a := 128 / math.Max(base, 1)
+	wlo := max(0, int(x-1.5*width))
+	whi := min(n, int(x+1.5*width)+1)
+	cnt := float64(whi - wlo)
+	m := (P[whi] - P[wlo]) / cnt
+	v := math.Max((P2[whi]-P2[wlo])/cnt-m*m, 0)
+	s := a * math.Sqrt(v)
+	mt := a * m
+	if !dark {
+		mt = 255 - mt
+	}
+	thr := mt * (1 + c.cfg.SauvolaK*(s/c.cfg.SauvolaR-1))
+	ilo, ihi := max(0, int(math.Ceil(eL-0.5))), min(n-1, int(math.Floor(eR-0.5)))
+	fg, tot, satN := 0, 0, 0
+	for i := ilo; i <= ihi; i++ {
+		vv := a * p[i]
+		if !dark {
+			vv = 255 - vv
+		}
+		if vv < thr {
+			fg++
+		}
+		if gm[i] >= 250 {
+			satN++
+		}
+		tot++
+	}
+	if tot == 0 || float64(fg) < 0.6*float64(tot) {
+		return bc
+	}
+	return append(bc, candidate{
+		band: band, y: yc, x: x, w: width,
+		contrast: contrast, snr: snr,
+		sat:  !dark && float64(satN) >= 0.5*float64(tot),
+		dark: dark,
+	})
+}

@@ -1,0 +1,213 @@
+package vision
+
+import (
+	"fmt"
+	"image"
+	"math"
+
+	"gocv.io/x/gocv"
+)
+
+// Frame size limits of the classical detector, in input pixels. Smaller
+// frames carry too few rows to fit a line; larger ones are refused rather
+// than spending unbounded time in the downscale.
+const (
+	MinFrameWidth, MinFrameHeight = 32, 24
+	MaxFrameWidth, MaxFrameHeight = 8192, 8192
+)
+
+// Classical is the classical (hand-designed) stripe detector. Its pipeline,
+// per frame:
+//
+//  1. downscale the frame to Config.WorkWidth (the cost then does not grow
+//     with the input size) and form an evidence image: luminance, plus
+//     colour evidence when a tape colour is configured;
+//  2. in horizontal bands from the bottom of the region of interest up,
+//     average the band's rows into a profile and look for stripe
+//     candidates with a bank of box ridge filters (a centre box against a
+//     box on each side, at widths from 2 px to 22 % of the working
+//     width). A candidate must stand out from BOTH sides: a shadow edge
+//     or a floor-colour change, bright on one side only, does not. The
+//     contrast is measured as a ratio to the side level (Weber contrast),
+//     so it does not change when the light dims or a shadow falls, and
+//     against the frame's measured noise;
+//  3. confirm each candidate with a Sauvola local threshold over a window
+//     three stripe widths wide, and measure its edges at half height for
+//     a sub-pixel centre and width;
+//  4. fit a centreline x = a + b·y + c·y² to the candidates with RANSAC,
+//     gated by the tracker's prediction when the Hint is valid, then by
+//     weighted least squares on the inliers, rejecting candidates whose
+//     width disagrees with the fitted width profile;
+//  5. score the result: share of bands along the line that support it,
+//     span, residual, contrast, and whether a second, disjoint line is
+//     nearly as strong (ambiguity) or the line is far from the prediction.
+//
+// A Classical is not safe for concurrent use; use one per goroutine.
+type Classical struct {
+	cfg       Config
+	tape      BGR
+	hasTape   bool
+	tapeUnit  [3]float64
+	work      gocv.Mat // downscaled input, same type as the input
+	workSize  image.Point
+	workType  gocv.MatType
+	haveWork  bool
+	evidence  []float32 // working-size evidence image, row-major
+	grey      []uint8   // working-size luminance, for saturation tests
+	profile   []float64
+	gmax      []float64
+	prefix    []float64
+	prefix2   []float64
+	cands     []candidate
+	bandCands []candidate
+	byBand    [][2]int
+	widths    []int
+	fit       fitter
+	rng       uint64
+	closed    bool
+}
+
+// NewClassical returns a detector for cfg, or the error from cfg.Validate.
+func NewClassical(cfg Config) (*Classical, error) {
+	if err := cfg.Validate(); err != nil {
+		return nil, err
+	}
+	c := &Classical{cfg: cfg}
+	colour, ok, _ := ParseTapeColour(cfg.TapeColour)
+	if ok {
+		c.tape, c.hasTape = colour, true
+		m := (float64(colour.B) + float64(colour.G) + float64(colour.R)) / 3
+		l := chromaLen(colour)
+		c.tapeUnit = [3]float64{(float64(colour.B) - m) / l, (float64(colour.G) - m) / l, (float64(colour.R) - m) / l}
+	}
+	return c, nil
+}
+
+// Close releases the detector's preallocated images. Detect after Close
+// returns Found=false.
+func (c *Classical) Close() error {
+	if c.haveWork {
+		c.work.Close()
+		c.haveWork = false
+	}
+	c.closed = true
+	return nil
+}
+
+// Method is the name put in Detection.Method.
+const MethodClassical = "classical"
+
+func notFound(reason string) Detection {
+	return Detection{Method: MethodClassical, Reason: reason}
+}
+
+// Detect measures the stripe in img, an 8-bit BGR (CV_8UC3) frame; grey
+// (CV_8UC1) and BGRA (CV_8UC4) frames are accepted too. It does not retain
+// img. An empty, closed, unsupported, too small or too large frame gives
+// Found=false with the reason; OpenCV is never called on it.
+func (c *Classical) Detect(img gocv.Mat, hint Hint) Detection {
+	if c.closed {
+		return notFound("detector closed")
+	}
+	if img.Ptr() == nil || img.Empty() {
+		return notFound("empty frame")
+	}
+	t := img.Type()
+	if t != gocv.MatTypeCV8UC3 && t != gocv.MatTypeCV8UC1 && t != gocv.MatTypeCV8UC4 {
+		return notFound(fmt.Sprintf("unsupported pixel type %v (want 8-bit BGR, grey or BGRA)", t))
+	}
+	w, h := img.Cols(), img.Rows()
+	if w < MinFrameWidth || h < MinFrameHeight {
+		return notFound(fmt.Sprintf("frame too small (%d×%d; need at least %d×%d)", w, h, MinFrameWidth, MinFrameHeight))
+	}
+	if w > MaxFrameWidth || h > MaxFrameHeight {
+		return notFound(fmt.Sprintf("frame too large (%d×%d; at most %d×%d)", w, h, MaxFrameWidth, MaxFrameHeight))
+	}
+	ww := min(w, c.cfg.WorkWidth)
+	wh := max(int(math.Round(float64(h)*float64(ww)/float64(w))), MinFrameHeight/2)
+	if err := c.prepare(img, image.Pt(ww, wh)); err != nil {
+		return notFound(err.Error())
+	}
+	fr := frameGeom{
+		inW: float64(w), inH: float64(h),
+		sx: float64(ww) / float64(w), sy: float64(wh) / float64(h),
+		ww: ww, wh: wh,
+	}
+	return c.detect(fr, hint)
+}
+
+// prepare fills c.work, c.evidence and c.grey from img at working size sz.
+func (c *Classical) prepare(img gocv.Mat, sz image.Point) error {
+	t := img.Type()
+	if !c.haveWork || c.workSize != sz || c.workType != t {
+		if c.haveWork {
+			c.work.Close()
+		}
+		c.work = gocv.NewMatWithSize(sz.Y, sz.X, t)
+		c.workSize, c.workType, c.haveWork = sz, t, true
+		n := sz.X * sz.Y
+		c.evidence = make([]float32, n)
+		c.grey = make([]uint8, n)
+		c.profile = make([]float64, sz.X)
+		c.gmax = make([]float64, sz.X)
+		c.prefix = make([]float64, sz.X+1)
+		c.prefix2 = make([]float64, sz.X+1)
+	}
+	if img.Cols() == sz.X && img.Rows() == sz.Y {
+		img.CopyTo(&c.work)
+	} else {
+		gocv.Resize(img, &c.work, sz, 0, 0, gocv.InterpolationArea)
+	}
+	if c.work.Empty() || c.work.Cols() != sz.X || c.work.Rows() != sz.Y || !c.work.IsContinuous() {
+		return fmt.Errorf("could not downscale the frame")
+	}
+	data, err := c.work.DataPtrUint8()
+	if err != nil {
+		return fmt.Errorf("could not read the frame: %v", err)
+	}
+	ch := c.work.Channels()
+	n := sz.X * sz.Y
+	if len(data) < n*ch {
+		return fmt.Errorf("could not read the frame: short buffer")
+	}
+	ev, gr := c.evidence, c.grey
+	if ch == 1 {
+		for i := 0; i < n; i++ {
+			ev[i] = float32(data[i])
+			gr[i] = data[i]
+		}
+		return nil
+	}
+	u := c.tapeUnit
+	for i, j := 0, 0; i < n; i, j = i+1, j+ch {
+		b, g, r := float64(data[j]), float64(data[j+1]), float64(data[j+2])
+		// Luminance with the ITU-R BT.601 weights (as OpenCV's BGR2GRAY).
+		y := 0.114*b + 0.587*g + 0.299*r
+		gr[i] = uint8(y + 0.5)
+		if c.hasTape {
+			m := (b + g + r) / 3
+			// Colour evidence: the pixel's chroma projected on the tape's
+			// hue direction; only the matching hue counts, and it counts
+			// twice so that a yellow tape stands out of a grey floor of the
+			// same luminance.
+			if p := (b-m)*u[0] + (g-m)*u[1] + (r-m)*u[2]; p > 0 {
+				y += 2 * p
+			}
+		}
+		ev[i] = float32(y)
+	}
+	return nil
+}
+
+// frameGeom maps between input and working pixels. Continuous coordinates:
+// pixel i covers [i, i+1); reported points put pixel centres on integers.
+type frameGeom struct {
+	inW, inH float64
+	sx, sy   float64
+	ww, wh   int
+}
+
+func (g frameGeom) toInX(xw float64) float64  { return xw/g.sx - 0.5 }
+func (g frameGeom) toInY(yw float64) float64  { return yw/g.sy - 0.5 }
+func (g frameGeom) toWorkX(x float64) float64 { return (x + 0.5) * g.sx }
+func (g frameGeom) toWorkY(y float64) float64 { return (y + 0.5) * g.sy }

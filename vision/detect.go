@@ -1,0 +1,202 @@
+package vision
+
+import (
+	"fmt"
+	"math"
+)
+
+// frameSeed seeds the RANSAC sampler afresh for every frame, so that the
+// same frame always gives the same Detection.
+const frameSeed = 0x9E3779B97F4A7C15
+
+func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
+	l := c.layout(fr)
+	if l.n < 6 || l.x1-l.x0 < 16 {
+		return notFound("region of interest too small for this frame")
+	}
+	sigma := c.noiseSigma(l, fr.ww)
+	c.widths = c.ridgeWidths(fr, l, c.widths)
+	wantLight := c.cfg.Polarity != PolarityDark || c.hasTape
+	wantDark := c.cfg.Polarity != PolarityLight && !c.hasTape
+	c.cands = c.cands[:0]
+	if cap(c.byBand) < l.n {
+		c.byBand = make([][2]int, l.n)
+	}
+	byBand := c.byBand[:l.n]
+	for k := 0; k < l.n; k++ {
+		lo := len(c.cands)
+		c.bandCandidates(k, l, fr, sigma, c.widths, wantLight, wantDark)
+		byBand[k] = [2]int{lo, len(c.cands)}
+	}
+	if len(c.cands) == 0 {
+		return notFound("no candidates")
+	}
+
+	// The tracker's prediction, in working pixels: x(y) = xr − tan(h)·(y − yr)
+	// (the far end, smaller y, leans right for positive heading).
+	yRefIn := c.cfg.RefRow * fr.inH
+	yRefW := fr.toWorkY(yRefIn)
+	if hint.Valid {
+		xr := fr.toWorkX(fr.inW/2 + hint.OffsetPx)
+		th := math.Tan(hint.HeadingDeg * math.Pi / 180)
+		sec2 := 1 + th*th
+		// Uncertainties no smaller than 2 % of the width and 2°.
+		so := math.Max(hint.OffsetSigma, 0.02*fr.inW) * fr.sx
+		sh := math.Max(hint.HeadingSigma, 2) * math.Pi / 180
+		for i := range c.cands {
+			cd := &c.cands[i]
+			dy := (cd.y - yRefW) / fr.sy * fr.sx // in x-scaled working pixels
+			pred := xr - th*dy
+			sig := math.Hypot(so, sh*sec2*dy)
+			cd.gated = math.Abs(cd.x-pred) <= 3*sig+0.5*cd.w
+		}
+	}
+
+	c.rng = frameSeed
+	slot := 0
+	var bestFull, bestGated *fitResult
+	var bestFullDark, bestGatedDark bool
+	for _, dark := range [2]bool{false, true} {
+		if (dark && !wantDark) || (!dark && !wantLight) {
+			continue
+		}
+		r := c.ransac(l, fr.ww, byBand, selector{dark: dark}, slot)
+		slot++
+		if c.acceptable(r, l) && (bestFull == nil || r.score > bestFull.score) {
+			bestFull, bestFullDark = r, dark
+		}
+		if hint.Valid {
+			g := c.ransac(l, fr.ww, byBand, selector{dark: dark, gatedOnly: true}, slot)
+			slot++
+			if c.acceptable(g, l) && (bestGated == nil || g.score > bestGated.score) {
+				bestGated, bestGatedDark = g, dark
+			}
+		}
+	}
+	chosen, dark, fromPrior := bestFull, bestFullDark, false
+	if bestGated != nil && (bestFull == nil || bestGated.score >= 0.6*bestFull.score) {
+		chosen, dark, fromPrior = bestGated, bestGatedDark, true
+	}
+	if chosen == nil {
+		return notFound(c.whyNot(l))
+	}
+
+	// Ambiguity: the best line among what is left once the chosen line's
+	// support is removed.
+	for i := range c.cands {
+		cd := &c.cands[i]
+		cd.taken = math.Abs(cd.x-chosen.centre.x(cd.y)) <= math.Max(1.5*chosen.width.x(cd.y), 2*tolerance(cd, fr.ww))
+	}
+	second := 0.0
+	for _, d := range [2]bool{false, true} {
+		if (d && !wantDark) || (!d && !wantLight) {
+			continue
+		}
+		r := c.ransac(l, fr.ww, byBand, selector{dark: d, skipTaken: true}, slot)
+		slot++
+		if c.acceptable(r, l) {
+			second = math.Max(second, r.score)
+		}
+	}
+	return c.report(fr, l, chosen, dark, fromPrior, second, hint, yRefIn, yRefW)
+}
+
+// acceptable: a fit that spans at least MinSpan of the ROI with support
+// in at least a third of the bands along it.
+func (c *Classical) acceptable(r *fitResult, l bandLayout) bool {
+	if r == nil || !r.ok || r.inliers < 5 {
+		return false
+	}
+	span := (r.yHi - r.yLo + float64(l.step)) / float64(l.y1-l.y0)
+	bands := (r.yHi-r.yLo)/float64(l.step) + 1
+	return span >= c.cfg.MinSpan && float64(r.inliers) >= bands/3
+}
+
+func (c *Classical) whyNot(l bandLayout) string {
+	bands := 0
+	seen := -1
+	for i := range c.cands {
+		if c.cands[i].band != seen {
+			seen = c.cands[i].band
+			bands++
+		}
+	}
+	if float64(bands) < c.cfg.MinSpan*float64(l.n) {
+		return fmt.Sprintf("too few rows with candidates (%d of %d)", bands, l.n)
+	}
+	return "no consistent line through the candidates"
+}
+
+func clamp01(v float64) float64 { return math.Min(1, math.Max(0, v)) }
+
+func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromPrior bool, second float64, hint Hint, yRefIn, yRefW float64) Detection {
+	roiH := float64(l.y1 - l.y0)
+	step := float64(l.step)
+	spanBands := (r.yHi-r.yLo)/step + 1
+	span := (r.yHi - r.yLo + step) / roiH
+
+	// Geometry in input pixels.
+	xRefW := r.centre.x(yRefW)
+	slopeIn := r.centre.slope(yRefW) * fr.sy / fr.sx // dx/dy in input pixels
+	heading := math.Atan(-slopeIn) * 180 / math.Pi
+	widthIn := math.Max(r.width.x(yRefW), 0) / fr.sx * math.Cos(heading*math.Pi/180)
+
+	d := Detection{
+		Found:      true,
+		Method:     MethodClassical,
+		RefRow:     yRefIn,
+		OffsetPx:   fr.toInX(xRefW) - fr.inW/2,
+		HeadingDeg: heading,
+		WidthPx:    widthIn,
+	}
+	yBot := math.Min(r.yHi+step/2, float64(l.y1))
+	yTop := math.Max(r.yLo-step/2, float64(l.y0))
+	n := min(max(r.inliers, 8), 32)
+	d.Points = make([]Point, n)
+	for i := range d.Points {
+		y := yBot + (yTop-yBot)*float64(i)/float64(n-1)
+		d.Points[i] = Point{X: fr.toInX(r.centre.x(y)), Y: fr.toInY(y)}
+	}
+
+	// Confidence: each factor in [0, 1], named for the Reason.
+	type factor struct {
+		v    float64
+		name string
+	}
+	fs := []factor{
+		{clamp01(float64(r.inliers) / spanBands), "gaps along the line"},
+		{clamp01(span / 0.5), "short line"},
+		{clamp01(1 - 0.5*r.rms*r.rms), "poor fit"},
+		{0.3 + 0.7*clamp01((r.meanSNR-c.cfg.MinSNR)/(2*c.cfg.MinSNR)), "low contrast"},
+		{1 - clamp01((second/r.score-0.3)/0.6), "ambiguous: another line nearly as strong"},
+		{1 - 0.7*r.satShare, "saturated (glare or reflection)"},
+	}
+	// The reference row should lie on or near the measured stretch.
+	if e := math.Max(yRefW-(r.yHi+step), (r.yLo-step)-yRefW); e > 0 {
+		fs = append(fs, factor{clamp01(1 - e/(0.3*roiH)), "reference row off the measured stretch"})
+	}
+	if hint.Valid {
+		if !fromPrior {
+			fs = append(fs, factor{0.5, "far from the prediction"})
+		} else {
+			so := math.Max(hint.OffsetSigma, 0.02*fr.inW)
+			sh := math.Max(hint.HeadingSigma, 2)
+			do := (d.OffsetPx - hint.OffsetPx) / so
+			dh := (d.HeadingDeg - hint.HeadingDeg) / sh
+			fs = append(fs, factor{0.5 + 0.5*math.Exp(-(do*do+dh*dh)/18), "far from the prediction"})
+		}
+	}
+	conf, worst := 1.0, 0
+	for i, f := range fs {
+		conf *= f.v
+		if f.v < fs[worst].v {
+			worst = i
+		}
+	}
+	d.Confidence = clamp01(conf)
+	if d.Confidence < 0.5 {
+		d.Reason = fs[worst].name
+	}
+	_ = dark
+	return d
+}

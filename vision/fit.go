@@ -1,0 +1,339 @@
+package vision
+
+import "math"
+
+// curve is x = a + b·t + c·t² with t = (y − y0)/scale, in working pixels.
+type curve struct {
+	a, b, c   float64
+	y0, scale float64
+}
+
+func (q curve) x(y float64) float64 {
+	t := (y - q.y0) / q.scale
+	return q.a + q.b*t + q.c*t*t
+}
+
+// slope is dx/dy at y.
+func (q curve) slope(y float64) float64 {
+	t := (y - q.y0) / q.scale
+	return (q.b + 2*q.c*t) / q.scale
+}
+
+// fitResult is the best line found among a set of candidates.
+type fitResult struct {
+	ok       bool
+	centre   curve
+	width    curve // width across rows (c = 0: a straight width profile)
+	score    float64
+	inliers  int
+	bands    []int // inlier candidate index per band, −1 if none
+	yLo, yHi float64
+	rms      float64 // residual in units of the inlier tolerance
+	meanSNR  float64
+	satShare float64
+}
+
+// fitter holds the fit's scratch memory.
+type fitter struct {
+	best, trial []int
+	res         [6]fitResult
+	idx         []int
+}
+
+// selector picks the candidates one fit may use.
+type selector struct {
+	dark      bool // the polarity
+	gatedOnly bool // only candidates inside the prediction gate
+	skipTaken bool // leave out candidates of the line already found
+}
+
+func (s selector) ok(cd *candidate) bool {
+	return cd.dark == s.dark && (!s.gatedOnly || cd.gated) && (!s.skipTaken || !cd.taken)
+}
+
+// maxSlope bounds |dx/dy| along the line: 75° from the image vertical.
+var maxSlope = math.Tan(75 * math.Pi / 180)
+
+func (c *Classical) nextRand(n int) int {
+	// xorshift64*: a fixed seed per frame keeps Detect deterministic.
+	c.rng ^= c.rng >> 12
+	c.rng ^= c.rng << 25
+	c.rng ^= c.rng >> 27
+	return int((c.rng * 2685821657736338717) >> 33 % uint64(n))
+}
+
+// tolerance is how far from the line a candidate may lie and still
+// support it: half its width, at least 0.6 % of the working width.
+func tolerance(cd *candidate, ww int) float64 {
+	return math.Max(0.5*cd.w, 0.006*float64(ww))
+}
+
+// weight of a supporting candidate: contrast in noise units (capped, so a
+// single glaring streak does not outvote a long dim stripe), halved when
+// saturated, and a little more near the bottom of the ROI, where the
+// floor right ahead of the vehicle is.
+func (c *Classical) weight(cd *candidate, l bandLayout) float64 {
+	w := math.Min(cd.snr, 20) / 20
+	if cd.sat {
+		w *= 0.3
+	}
+	return w * (1 - 0.4*float64(cd.band)/float64(max(l.n, 1)))
+}
+
+// evaluate scores curve q against the candidates of one polarity: per
+// band the closest candidate within tolerance supports it.
+func (c *Classical) evaluate(q curve, l bandLayout, ww int, byBand [][2]int, sel selector, out []int) (score float64, count int) {
+	for k := 0; k < l.n; k++ {
+		out[k] = -1
+		lo, hi := byBand[k][0], byBand[k][1]
+		if lo == hi {
+			continue
+		}
+		y := l.centre(k)
+		xq := q.x(y)
+		bestD, bestI := math.Inf(1), -1
+		for i := lo; i < hi; i++ {
+			cd := &c.cands[i]
+			if !sel.ok(cd) {
+				continue
+			}
+			d := math.Abs(cd.x - xq)
+			if d <= tolerance(cd, ww) && d < bestD {
+				bestD, bestI = d, i
+			}
+		}
+		if bestI >= 0 {
+			cd := &c.cands[bestI]
+			r := bestD / tolerance(cd, ww)
+			score += c.weight(cd, l) * (1 - 0.5*r*r)
+			out[k] = bestI
+			count++
+		}
+	}
+	return score, count
+}
+
+// plausible rejects curves that lean more than 75° or bend more than 60°
+// over the ROI.
+func plausible(q curve, l bandLayout) bool {
+	s0, s1 := q.slope(float64(l.y0)), q.slope(float64(l.y1))
+	if math.Abs(s0) > maxSlope || math.Abs(s1) > maxSlope {
+		return false
+	}
+	return math.Abs(math.Atan(s0)-math.Atan(s1)) <= 60*math.Pi/180
+}
+
+// ransac finds the best-supported curve among the candidates accepted by
+// use. byBand gives each band's candidate index range.
+func (c *Classical) ransac(l bandLayout, ww int, byBand [][2]int, sel selector, slot int) *fitResult {
+	f := &c.fit
+	res := &f.res[slot]
+	*res = fitResult{bands: res.bands[:0]}
+	f.idx = f.idx[:0]
+	for i := range c.cands {
+		if sel.ok(&c.cands[i]) {
+			f.idx = append(f.idx, i)
+		}
+	}
+	if len(f.idx) < 3 {
+		return res
+	}
+	if cap(f.best) < l.n {
+		f.best, f.trial = make([]int, l.n), make([]int, l.n)
+	}
+	best, trial := f.best[:l.n], f.trial[:l.n]
+	y0 := float64(l.y1)
+	sc := float64(l.y1 - l.y0)
+	minSpread := 0.15 * sc
+	bestScore := 0.0
+	for it := 0; it < c.cfg.Iterations; it++ {
+		i1 := f.idx[c.nextRand(len(f.idx))]
+		i2 := f.idx[c.nextRand(len(f.idx))]
+		p1, p2 := &c.cands[i1], &c.cands[i2]
+		if math.Abs(p1.y-p2.y) < minSpread {
+			continue
+		}
+		var q curve
+		q.y0, q.scale = y0, sc
+		if it%2 == 0 {
+			// A straight line through two candidates.
+			t1, t2 := (p1.y-y0)/sc, (p2.y-y0)/sc
+			q.b = (p2.x - p1.x) / (t2 - t1)
+			q.a = p1.x - q.b*t1
+		} else {
+			i3 := f.idx[c.nextRand(len(f.idx))]
+			p3 := &c.cands[i3]
+			if math.Abs(p3.y-p1.y) < minSpread/2 || math.Abs(p3.y-p2.y) < minSpread/2 {
+				continue
+			}
+			var ok bool
+			if q, ok = parabola3(p1, p2, p3, y0, sc); !ok {
+				continue
+			}
+		}
+		if !plausible(q, l) {
+			continue
+		}
+		s, _ := c.evaluate(q, l, ww, byBand, sel, trial)
+		if s > bestScore {
+			bestScore = s
+			res.centre = q
+			copy(best, trial)
+		}
+	}
+	if bestScore == 0 {
+		return res
+	}
+	res.bands = append(res.bands[:0], best...)
+	c.refine(res, l, ww, byBand, sel)
+	return res
+}
+
+func parabola3(p1, p2, p3 *candidate, y0, sc float64) (curve, bool) {
+	t1, t2, t3 := (p1.y-y0)/sc, (p2.y-y0)/sc, (p3.y-y0)/sc
+	d := (t1 - t2) * (t1 - t3) * (t2 - t3)
+	if math.Abs(d) < 1e-9 {
+		return curve{}, false
+	}
+	// Lagrange form collected into a + b·t + c·t².
+	c := (t3*(p2.x-p1.x) + t2*(p1.x-p3.x) + t1*(p3.x-p2.x)) / d
+	b := (t3*t3*(p1.x-p2.x) + t2*t2*(p3.x-p1.x) + t1*t1*(p2.x-p3.x)) / d
+	a := p1.x - b*t1 - c*t1*t1
+	return curve{a: a, b: b, c: c, y0: y0, scale: sc}, true
+}
+
+// refine fits the centre and width curves to the inliers by weighted least
+// squares (curvature lightly damped, so noise does not bend a straight
+// stripe), drops inliers whose width disagrees with the width profile by
+// more than a factor 1.6, and re-collects inliers, twice.
+func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int, sel selector) {
+	sc := res.centre.scale
+	y0 := res.centre.y0
+	for pass := 0; pass < 2; pass++ {
+		// Width profile: weighted straight line w(t).
+		var sw, st, sw2, stt, stw float64
+		for _, i := range res.bands {
+			if i < 0 {
+				continue
+			}
+			cd := &c.cands[i]
+			t := (cd.y - y0) / sc
+			wt := c.weight(cd, l)
+			sw += wt
+			st += wt * t
+			stt += wt * t * t
+			sw2 += wt * cd.w
+			stw += wt * t * cd.w
+		}
+		if sw == 0 {
+			res.ok = false
+			return
+		}
+		det := sw*stt - st*st
+		wc := curve{y0: y0, scale: sc, a: sw2 / sw}
+		if det > 1e-9*sw*sw {
+			wc.b = (sw*stw - st*sw2) / det
+			wc.a = (sw2 - wc.b*st) / sw
+		}
+		res.width = wc
+		// Centre: weighted quadratic (no damping of c: t and t² are nearly collinear over a short span, so any damping would straighten real curves).
+		var A [3][3]float64
+		var B [3]float64
+		n := 0
+		for k, i := range res.bands {
+			if i < 0 {
+				continue
+			}
+			cd := &c.cands[i]
+			if ew := wc.x(cd.y); ew > 0 && (cd.w > 1.6*ew || cd.w < ew/1.6) {
+				res.bands[k] = -1
+				continue
+			}
+			t := (cd.y - y0) / sc
+			wt := c.weight(cd, l)
+			v := [3]float64{1, t, t * t}
+			for r := 0; r < 3; r++ {
+				for s := 0; s < 3; s++ {
+					A[r][s] += wt * v[r] * v[s]
+				}
+				B[r] += wt * v[r] * cd.x
+			}
+			n++
+		}
+		if n < 3 {
+			res.ok = false
+			return
+		}
+		A[2][2] += 1e-6 * A[0][0] // keeps the system solvable when t² ≈ 0
+		sol, ok := solve3(A, B)
+		if !ok {
+			res.ok = false
+			return
+		}
+		q := curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
+		if !plausible(q, l) {
+			break
+		}
+		res.centre = q
+		res.score, res.inliers = c.evaluate(q, l, ww, byBand, sel, res.bands)
+	}
+	// Summaries.
+	res.yLo, res.yHi = math.Inf(1), math.Inf(-1)
+	var r2, snr, sat, n float64
+	for _, i := range res.bands {
+		if i < 0 {
+			continue
+		}
+		cd := &c.cands[i]
+		res.yLo = math.Min(res.yLo, cd.y)
+		res.yHi = math.Max(res.yHi, cd.y)
+		d := (cd.x - res.centre.x(cd.y)) / tolerance(cd, ww)
+		r2 += d * d
+		snr += math.Min(cd.snr, 40)
+		if cd.sat {
+			sat++
+		}
+		n++
+	}
+	if n == 0 {
+		res.ok = false
+		return
+	}
+	res.rms = math.Sqrt(r2 / n)
+	res.meanSNR = snr / n
+	res.satShare = sat / n
+	res.ok = true
+}
+
+// solve3 solves A·x = b by Gaussian elimination with partial pivoting.
+func solve3(A [3][3]float64, b [3]float64) ([3]float64, bool) {
+	for col := 0; col < 3; col++ {
+		p := col
+		for r := col + 1; r < 3; r++ {
+			if math.Abs(A[r][col]) > math.Abs(A[p][col]) {
+				p = r
+			}
+		}
+		if math.Abs(A[p][col]) < 1e-12 {
+			return [3]float64{}, false
+		}
+		A[col], A[p] = A[p], A[col]
+		b[col], b[p] = b[p], b[col]
+		for r := col + 1; r < 3; r++ {
+			f := A[r][col] / A[col][col]
+			for s := col; s < 3; s++ {
+				A[r][s] -= f * A[col][s]
+			}
+			b[r] -= f * b[col]
+		}
+	}
+	var x [3]float64
+	for r := 2; r >= 0; r-- {
+		s := b[r]
+		for k := r + 1; k < 3; k++ {
+			s -= A[r][k] * x[k]
+		}
+		x[r] = s / A[r][r]
+	}
+	return x, true
+}

@@ -266,12 +266,12 @@ func (t *Tracker) usable(m Measurement) (bool, string) {
 	if !finite(m.OffsetPx) || !finite(m.HeadingDeg) || !finite(m.Confidence) {
 		return false, "measurement not a finite number"
 	}
-	min := t.cfg.MinConfidence
+	threshold := t.cfg.MinConfidence
 	if t.state.Trusted() {
-		min = t.cfg.HoldConfidence
+		threshold = t.cfg.HoldConfidence
 	}
-	if m.Confidence < min {
-		return false, fmt.Sprintf("confidence %.2f below %.2f", m.Confidence, min)
+	if m.Confidence < threshold {
+		return false, fmt.Sprintf("confidence %.2f below %.2f", m.Confidence, threshold)
 	}
 	return true, ""
 }

@@ -540,3 +540,38 @@ func BenchmarkUpdate(b *testing.B) {
 		tr.Update(now, good(10*math.Sin(float64(i)*0.01), 1))
 	}
 }
+
+func TestGateRateOnDetectorNoise(t *testing.T) {
+	// With detector noise as configured (4 px, 1.5 deg) and a smoothly
+	// moving line, the 99 % gate should reject about 1 % of genuine
+	// measurements or fewer (the chi-square gate's design rate); many
+	// more would mean the innovation variance is wrong.
+	tr := newTracker(t, guidance.DefaultConfig())
+	scene := guidancetest.Scene{
+		FPS: 30, Length: 120 * time.Second, Seed: 11,
+		Offset:  func(t time.Duration) float64 { return 50 * math.Sin(0.4*t.Seconds()) },
+		Heading: func(t time.Duration) float64 { return 6 * math.Sin(0.25*t.Seconds()) },
+		NoisePx: 4, NoiseDeg: 1.5,
+	}
+	gated, n := 0, 0
+	for _, f := range scene.Frames() {
+		if e := tr.Update(f.T, f.M); e.Gated {
+			gated++
+		}
+		n++
+	}
+	if rate := float64(gated) / float64(n); rate > 0.02 {
+		t.Errorf("gate rejected %.2f %% of genuine measurements (%d of %d), want ≤ 2 %%", 100*rate, gated, n)
+	} else {
+		t.Logf("gate rejected %.2f %% (%d of %d)", 100*rate, gated, n)
+	}
+}
+
+func TestConfigStringNamesTheFailSafeTime(t *testing.T) {
+	// The configured fail-safe time goes into the log.
+	cfg := guidance.DefaultConfig()
+	cfg.FailSafeAfter = 450 * ms
+	if s := cfg.String(); !strings.Contains(s, "fail_safe_after=450ms") || !strings.Contains(s, "reacquire_for=200ms") {
+		t.Errorf("Config.String() = %q", s)
+	}
+}

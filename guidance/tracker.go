@@ -115,6 +115,9 @@ func NewTracker(cfg Config) (*Tracker, error) {
 	return t, nil
 }
 
+// State returns the current tracking state.
+func (t *Tracker) State() State { return t.state }
+
 // Config returns the settings in force.
 func (t *Tracker) Config() Config { return t.cfg }
 
@@ -138,8 +141,8 @@ func (t *Tracker) Update(now time.Duration, m Measurement) Estimate {
 	if !t.advance(now) {
 		return t.estimate(t.last)
 	}
+	t.checkTimers(now) // before lastFrame moves, so a stall is named as one
 	t.lastFrame = now
-	t.checkTimers(now)
 	if t.state.Trusted() {
 		t.updateLocked(now, m)
 	} else {

@@ -575,3 +575,15 @@ func TestConfigStringNamesTheFailSafeTime(t *testing.T) {
 		t.Errorf("Config.String() = %q", s)
 	}
 }
+
+func TestLateFrameCannotHideALoss(t *testing.T) {
+	// Frames stop for 0.5 s and nobody calls Tick; the next frame is a
+	// good one. The tracker must still report the loss (alarm on, now
+	// regaining) and name the stall, not carry on holding.
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 0, 0, time.Second)
+	e := tr.Update(now+500*ms, good(0, 0))
+	if !e.Alarm || e.Tracking || e.State != guidance.Regaining || !strings.Contains(e.Reason, "camera stalled: no frame for 0.53 s") {
+		t.Fatalf("first frame after a 0.53 s gap: %+v", e)
+	}
+}

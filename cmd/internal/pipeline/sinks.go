@@ -1,0 +1,160 @@
+package pipeline
+
+import (
+	"fmt"
+	"image"
+	"image/color"
+
+	"gocv.io/x/gocv"
+
+	"github.com/hewline/hewline/guidance/tracklog"
+)
+
+// LogSink writes every frame to a track log.
+type LogSink struct {
+	W   *tracklog.Writer
+	rec tracklog.Record
+}
+
+// Frame implements Sink.
+func (s *LogSink) Frame(r *Result, _ gocv.Mat) error {
+	rec := &s.rec
+	pts := rec.Points[:0]
+	for _, p := range r.Det.Points {
+		pts = append(pts, [2]float64{p.X, p.Y})
+	}
+	*rec = tracklog.Record{
+		Frame:          r.Info.Index,
+		T:              r.Info.T.Seconds(),
+		Tracking:       r.Est.Tracking,
+		Alarm:          r.Est.Alarm,
+		Confidence:     r.Est.Confidence,
+		State:          r.Est.State.String(),
+		Points:         pts,
+		OffsetPx:       r.Est.OffsetPx,
+		HeadingDeg:     r.Est.HeadingDeg,
+		Method:         r.Det.Method,
+		WidthPx:        r.Det.WidthPx,
+		MeasConfidence: r.Det.Confidence,
+		Gated:          r.Est.Gated,
+		Reason:         r.Est.Reason,
+	}
+	if !r.Det.Found {
+		rec.Points = pts[:0]
+		if r.Det.Reason != "" && rec.Reason == "" {
+			rec.Reason = r.Det.Reason
+		}
+	} else {
+		m := r.Det.OffsetPx
+		rec.MeasOffsetPx = &m
+	}
+	if r.Floor != nil && r.Est.Tracking {
+		off, head, w := r.Floor.OffsetMM, r.Floor.HeadingDeg, r.Floor.WidthMM
+		rec.OffsetMM, rec.HeadingFloorDeg, rec.WidthMM = &off, &head, &w
+	}
+	if !r.Captured.IsZero() && !r.Decided.IsZero() {
+		d := float64(r.Decided.Sub(r.Captured).Microseconds()) / 1000
+		rec.DecisionMS = &d
+	}
+	return s.W.Write(rec)
+}
+
+// VideoSink writes an annotated copy of every frame to an MJPEG AVI: the
+// detected centreline, the reference row, offset, heading, state and a red
+// border with "ALARM" while the fail-safe is on.
+type VideoSink struct {
+	Path string
+	FPS  float64
+	w    *gocv.VideoWriter
+	buf  gocv.Mat
+	size image.Point
+}
+
+// Frame implements Sink.
+func (s *VideoSink) Frame(r *Result, img gocv.Mat) error {
+	if img.Empty() {
+		return nil
+	}
+	sz := image.Pt(img.Cols(), img.Rows())
+	if s.w == nil {
+		fps := s.FPS
+		if fps <= 0 {
+			fps = 30
+		}
+		w, err := gocv.VideoWriterFile(s.Path, "MJPG", fps, sz.X, sz.Y, true)
+		if err != nil {
+			return fmt.Errorf("annotated video %s: %w", s.Path, err)
+		}
+		s.w, s.size, s.buf = w, sz, gocv.NewMat()
+	}
+	img.CopyTo(&s.buf)
+	if sz != s.size {
+		gocv.Resize(s.buf, &s.buf, s.size, 0, 0, gocv.InterpolationLinear)
+	}
+	Annotate(&s.buf, r)
+	if err := s.w.Write(s.buf); err != nil {
+		return fmt.Errorf("annotated video %s: %w", s.Path, err)
+	}
+	return nil
+}
+
+// Close finishes the video file.
+func (s *VideoSink) Close() error {
+	if s.w != nil {
+		s.w.Close()
+		s.buf.Close()
+		s.w = nil
+	}
+	return nil
+}
+
+var (
+	green  = color.RGBA{0, 220, 0, 0}
+	yellow = color.RGBA{255, 210, 0, 0}
+	red    = color.RGBA{255, 0, 0, 0}
+	white  = color.RGBA{255, 255, 255, 0}
+	black  = color.RGBA{0, 0, 0, 0}
+)
+
+// Annotate draws r onto img (BGR) in place.
+func Annotate(img *gocv.Mat, r *Result) {
+	w, h := img.Cols(), img.Rows()
+	scale := float64(w) / 640
+	th := max(1, int(2*scale+0.5))
+	col := yellow
+	if r.Est.Tracking {
+		col = green
+	}
+	for i := 1; i < len(r.Det.Points); i++ {
+		a, b := r.Det.Points[i-1], r.Det.Points[i]
+		gocv.Line(img, image.Pt(int(a.X), int(a.Y)), image.Pt(int(b.X), int(b.Y)), col, th)
+	}
+	if r.Det.Found {
+		y := int(r.Det.RefRow)
+		gocv.Line(img, image.Pt(w/2, y-int(8*scale)), image.Pt(w/2, y+int(8*scale)), white, th)
+		if r.Est.Tracking {
+			x := int(float64(w)/2 + r.Est.OffsetPx)
+			gocv.Circle(img, image.Pt(x, y), int(6*scale)+1, green, th)
+		}
+	}
+	fs := 0.5 * scale
+	line := func(row int, s string, c color.RGBA) {
+		p := image.Pt(int(8*scale), int(float64(18+row*18)*scale))
+		gocv.PutText(img, s, p.Add(image.Pt(1, 1)), gocv.FontHersheySimplex, fs, black, th)
+		gocv.PutText(img, s, p, gocv.FontHersheySimplex, fs, c, max(1, th/2))
+	}
+	line(0, fmt.Sprintf("frame %d  t %.2fs  %s", r.Info.Index, r.Info.T.Seconds(), r.Est.State), white)
+	if r.Est.Tracking {
+		line(1, fmt.Sprintf("offset %+.1f px  heading %+.1f deg  conf %.2f", r.Est.OffsetPx, r.Est.HeadingDeg, r.Est.Confidence), white)
+	} else {
+		line(1, "NOT TRACKING: "+r.Est.Reason, yellow)
+	}
+	if r.Floor != nil && r.Est.Tracking {
+		line(2, fmt.Sprintf("floor offset %+.0f mm  heading %+.1f deg", r.Floor.OffsetMM, r.Floor.HeadingDeg), white)
+	}
+	if r.Est.Alarm {
+		b := max(4, int(8*scale))
+		gocv.Rectangle(img, image.Rect(b/2, b/2, w-b/2, h-b/2), red, b)
+		gocv.PutText(img, "ALARM", image.Pt(w/2-int(60*scale), h/2), gocv.FontHersheySimplex, 1.5*scale, red, 2*th)
+	}
+}

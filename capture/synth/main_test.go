@@ -1,0 +1,43 @@
+package synth
+
+import (
+	"fmt"
+	"os"
+	"testing"
+
+	"gocv.io/x/gocv"
+)
+
+// TestMain fails the run when a test leaks a Mat (run with -tags
+// matprofile for the count to be kept).
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if n := gocv.MatProfile.Count(); n != 0 {
+		fmt.Fprintf(os.Stderr, "synth: %d Mats not closed:\n", n)
+		gocv.MatProfile.WriteTo(os.Stderr, 1)
+		code = 1
+	}
+	os.Exit(code)
+}
+
+// BenchmarkRender640 measures one 640×480 frame of the demo scenario.
+func BenchmarkRender640(b *testing.B) {
+	sc, err := Lookup("weave")
+	if err != nil {
+		b.Fatal(err)
+	}
+	sc.Frames = 1 << 30
+	r, err := New(sc)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer r.Close()
+	m := gocv.NewMat()
+	defer m.Close()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := r.Read(&m); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -137,7 +137,8 @@ func (s *Synth) apply(c Cue) {
 	}
 	s.target = p
 	if c.Alarm && !s.alarmActive {
-		s.alarmActive, s.alarmT, s.alarmPhase = true, 0, 0
+		// The pulse envelope starts at 0, so the gate can open at once.
+		s.alarmActive, s.alarmT, s.alarmPhase, s.alarmGate = true, 0, 0, 1
 	}
 	s.alarmOn = c.Alarm
 }

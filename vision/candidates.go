@@ -1,9 +1,6 @@
 package vision
 
-import (
-	"math"
-	"sort"
-)
+import "math"
 
 // candidate is one stripe crossing found in one row band, in working
 // pixels (continuous coordinates).
@@ -18,6 +15,7 @@ type candidate struct {
 	dark     bool    // darker than the floor
 	gated    bool    // within the tracker's prediction gate
 	taken    bool    // supports the line already found
+	rank     float64 // ordering within the band, strongest first
 }
 
 // bandLayout is the row bands of the region of interest.
@@ -145,38 +143,57 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 		f := max(1, (w+1)/2)
 		st := max(1, w/4)
 		noise := sigmaBand * math.Sqrt(1/float64(w)+1/float64(f))
-		fw := float64(w)
-		ff := float64(f)
+		invW, invF := 1/float64(w), 1/float64(f)
 		// Track the previous two evaluations for local-maximum tests.
-		var prevL, prevD float64
+		var prevL, prevD, prev2L, prev2D float64
 		var prevPos int
+		var prevSide float64
 		var prevOKL, prevOKD bool
-		var prev2L, prev2D float64
 		for c0 := f; c0+w+f <= n; c0 += st {
-			mc := (P[c0+w] - P[c0]) / fw
-			ml := (P[c0] - P[c0-f]) / ff
-			mr := (P[c0+w+f] - P[c0+w]) / ff
-			side := (ml+mr)/2 + 8 // +8 grey levels: no blow-up in the dark
-			sL := math.Min(mc-ml, mc-mr)
-			sD := math.Min(ml-mc, mr-mc)
+			pa, pb, pc, pd := P[c0-f], P[c0], P[c0+w], P[c0+w+f]
+			mc := (pc - pb) * invW
+			ml := (pb - pa) * invF
+			mr := (pd - pc) * invF
+			dl, dr := mc-ml, mc-mr
+			// Light: the weaker of the two steps up; dark: of the two down.
+			sL, sD := dl, -dl
+			if dr < sL {
+				sL = dr
+			}
+			if -dr < sD {
+				sD = -dr
+			}
+			side := (ml+mr)*0.5 + 8 // +8 grey levels: no blow-up in the dark
+			if !prevOKL && !prevOKD && sL < minC*side && sD < minC*side {
+				// Nothing here nor just before: the common case, kept cheap.
+				prev2L, prev2D = prevL, prevD
+				prevL, prevD, prevPos = 0, 0, c0
+				continue
+			}
 			cL, cD := sL/side, sD/side
 			// Emit the previous position if it was a local maximum.
 			if prevOKL && prevL >= prev2L && prevL > cL {
-				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevL, prevL*side/noise, false)
+				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevL, prevL*prevSide/noise, false)
 			}
 			if prevOKD && prevD >= prev2D && prevD > cD {
-				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevD, prevD*side/noise, true)
+				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevD, prevD*prevSide/noise, true)
 			}
 			prev2L, prev2D = prevL, prevD
-			prevL, prevD, prevPos = cL, cD, c0
+			prevL, prevD, prevPos, prevSide = cL, cD, c0, side
 			prevOKL = wantLight && cL >= minC && sL >= minSNR*noise
 			prevOKD = wantDark && cD >= minC && sD >= minSNR*noise
 		}
-		_ = prevPos
 	}
 	// Non-maximum suppression across widths: strongest first, drop any
 	// candidate overlapping a kept one of the same polarity.
-	sort.Slice(bc, func(i, j int) bool { return bc[i].contrast*math.Sqrt(bc[i].snr) > bc[j].contrast*math.Sqrt(bc[j].snr) })
+	for i := range bc {
+		bc[i].rank = bc[i].contrast * math.Sqrt(bc[i].snr)
+	}
+	for i := 1; i < len(bc); i++ { // insertion sort: a band has few candidates
+		for j := i; j > 0 && bc[j].rank > bc[j-1].rank; j-- {
+			bc[j], bc[j-1] = bc[j-1], bc[j]
+		}
+	}
 	kept := 0
 	for i := range bc {
 		ok := true

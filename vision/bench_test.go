@@ -1,0 +1,43 @@
+package vision
+
+import "testing"
+
+func benchDetect(b *testing.B, w, h int) {
+	s := baseScene(w, h)
+	img := s.draw(b)
+	defer img.Close()
+	det, err := NewClassical(DefaultConfig())
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer det.Close()
+	det.Detect(img, Hint{}) // allocate the working buffers
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if d := det.Detect(img, Hint{}); !d.Found {
+			b.Fatal(d.Reason)
+		}
+	}
+}
+
+// Run with GOMAXPROCS=1 for the one-core Go figure (gocv 0.31 has no call
+// to limit OpenCV's own threads; the resize is its only call per frame).
+func BenchmarkDetect320(b *testing.B)  { benchDetect(b, 320, 240) }
+func BenchmarkDetect640(b *testing.B)  { benchDetect(b, 640, 480) }
+func BenchmarkDetect1280(b *testing.B) { benchDetect(b, 1280, 720) }
+
+func BenchmarkDetect640Hint(b *testing.B) {
+	s := baseScene(640, 480)
+	img := s.draw(b)
+	defer img.Close()
+	det, _ := NewClassical(DefaultConfig())
+	defer det.Close()
+	h := Hint{Valid: true, OffsetPx: 25, HeadingDeg: -4, OffsetSigma: 5, HeadingSigma: 2}
+	det.Detect(img, h)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		det.Detect(img, h)
+	}
+}

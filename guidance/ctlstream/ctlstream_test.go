@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/hewline/hewline/guidance"
 	"github.com/hewline/hewline/guidance/ctlstream"
 )
 
@@ -297,7 +298,8 @@ func TestGateHysteresis(t *testing.T) {
 func TestSendGatesUntrusted(t *testing.T) {
 	var w lines
 	c := newClock()
-	s := ctlstream.NewWriter(&w, ctlstream.Options{Now: c.Now, Session: 1}) // default gate
+	s := ctlstream.NewWriter(&w, ctlstream.Options{Now: c.Now, Session: 1,
+		Gate: ctlstream.NewGate(ctlstream.DefaultEnter, ctlstream.DefaultLeave, ctlstream.DefaultConfirm)})
 	for i := 0; i < 4; i++ {
 		if err := s.Send(tracked(i, 10, 0.9)); err != nil {
 			t.Fatal(err)
@@ -310,6 +312,30 @@ func TestSendGatesUntrusted(t *testing.T) {
 		}
 		if !got[i].Tracking && (got[i].OffsetPx != 0 || got[i].Reason == "") {
 			t.Errorf("message %d untrusted but offset %v reason %q", i, got[i].OffsetPx, got[i].Reason)
+		}
+	}
+}
+
+func TestSendWithoutGate(t *testing.T) {
+	var w lines
+	s := ctlstream.NewWriter(&w, ctlstream.Options{Now: newClock().Now, Session: 1})
+	low := tracked(0, 10, 0.1) // a coasting estimate: trusted by the tracker, low confidence
+	alarmed := tracked(1, 10, 0.9)
+	alarmed.Alarm = true
+	lost := tracked(2, 10, 0.9)
+	lost.Tracking = false
+	for _, m := range []ctlstream.Message{low, alarmed, lost} {
+		if err := s.Send(m); err != nil {
+			t.Fatal(err)
+		}
+	}
+	got := w.decoded(t)
+	if !got[0].Tracking || got[0].OffsetPx != 10 {
+		t.Errorf("tracker-trusted estimate withheld: %+v", got[0])
+	}
+	for _, m := range got[1:] {
+		if m.Tracking || m.OffsetPx != 0 {
+			t.Errorf("frame %d sent with usable offset: %+v", m.Frame, m)
 		}
 	}
 }
@@ -673,19 +699,25 @@ func TestPurePursuit(t *testing.T) {
 
 func TestLineCurvature(t *testing.T) {
 	tests := map[string]struct {
-		offset, headingDeg, look float64
-		want                     float64
+		ahead, offset, headingDeg, look float64
+		want                            float64
 	}{
 		// Parallel line 0.5 m right, L = 2 m: y = 0.5 → κ = 2·0.5/4 = 0.25.
-		"parallel right": {0.5, 0, 2, 0.25},
+		"parallel right": {0, 0.5, 0, 2, 0.25},
+		// Measured 0.8 m ahead instead: same line, same goal, same κ.
+		"parallel right seen ahead": {0.8, 0.5, 0, 2, 0.25},
 		// Line through the vehicle turned 30° right: goal at (L cos θ,
 		// L sin θ), κ = 2 sin θ / L = 2·0.5/2 = 0.5.
-		"through vehicle turned": {0, 30, 2, 0.5},
-		"on the line":            {0, 0, 1.5, 0},
+		"through vehicle turned": {0, 0, 30, 2, 0.5},
+		// Line turned 45° left through (1, 0), L = √2; along (cos, −sin)·s:
+		// (1 + s/√2)² + s²/2 = 2 → s² + √2·s − 1 = 0 → s = (√6 − √2)/2,
+		// goal y = −s/√2 = −(√3 − 1)/2, κ = 2y/L² = −(√3 − 1)/2.
+		"turned left seen ahead": {1, 0, -45, math.Sqrt2, -(math.Sqrt(3) - 1) / 2},
+		"on the line":            {0, 0, 0, 1.5, 0},
 	}
 	for name, tc := range tests {
 		t.Run(name, func(t *testing.T) {
-			k, err := ctlstream.LineCurvature(tc.offset, tc.headingDeg*math.Pi/180, tc.look)
+			k, err := ctlstream.LineCurvature(tc.ahead, tc.offset, tc.headingDeg*math.Pi/180, tc.look)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -695,7 +727,7 @@ func TestLineCurvature(t *testing.T) {
 		})
 	}
 	// A parallel line farther away than the look-ahead has no goal point.
-	if _, err := ctlstream.LineCurvature(3, 0, 2); !errors.Is(err, ctlstream.ErrNoGoal) {
+	if _, err := ctlstream.LineCurvature(0, 3, 0, 2); !errors.Is(err, ctlstream.ErrNoGoal) {
 		t.Errorf("line beyond reach: %v, want ErrNoGoal", err)
 	}
 }
@@ -742,3 +774,62 @@ func BenchmarkSend(b *testing.B) {
 type discard struct{}
 
 func (discard) Write(p []byte) (int, error) { return len(p), nil }
+
+func TestFromEstimate(t *testing.T) {
+	tests := map[string]struct {
+		e        guidance.Estimate
+		floor    *ctlstream.Floor
+		tracking bool
+		curv     *float64
+	}{
+		"holding": {
+			e:        guidance.Estimate{T: time.Second, State: guidance.Holding, Tracking: true, OffsetPx: 12, HeadingDeg: 1, Confidence: 0.8},
+			tracking: true,
+		},
+		// 500 mm right, parallel, seen 800 mm ahead, look-ahead 2 m:
+		// κ = 2·0.5/2² = 0.25 1/m (Coulter 1992).
+		"holding calibrated": {
+			e:        guidance.Estimate{T: time.Second, State: guidance.Holding, Tracking: true, OffsetPx: 12, Confidence: 0.8},
+			floor:    &ctlstream.Floor{OffsetMM: 500, AheadMM: 800, LookAheadMM: 2000},
+			tracking: true, curv: ptr(0.25),
+		},
+		"lost keeps offsets out": {
+			e:     guidance.Estimate{T: time.Second, State: guidance.Lost, Alarm: true, OffsetPx: 99, Reason: "no line"},
+			floor: &ctlstream.Floor{OffsetMM: 500, LookAheadMM: 2000},
+		},
+		"alarm wins over tracking": {
+			e: guidance.Estimate{State: guidance.Holding, Tracking: true, Alarm: true, OffsetPx: 5},
+		},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			m := ctlstream.FromEstimate(tc.e, 30)
+			if tc.floor != nil {
+				if err := m.SetFloor(*tc.floor); err != nil {
+					t.Fatal(err)
+				}
+			}
+			b, err := m.AppendJSON(nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got, err := ctlstream.Decode(b)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got.Tracking != tc.tracking || got.State != tc.e.State.String() || got.CaptureT != tc.e.T || got.Frame != 30 {
+				t.Fatalf("message %+v", got)
+			}
+			if !tc.tracking && (got.OffsetPx != 0 || got.OffsetMM != nil || got.CurvaturePerM != nil) {
+				t.Errorf("untrusted estimate leaked offsets: %+v", got)
+			}
+			if tc.curv != nil && (got.CurvaturePerM == nil || math.Abs(*got.CurvaturePerM-*tc.curv) > 1e-4) {
+				t.Errorf("curvature %v, want %v", got.CurvaturePerM, *tc.curv)
+			}
+		})
+	}
+	m := ctlstream.FromEstimate(guidance.Estimate{State: guidance.Holding, Tracking: true}, 1)
+	if err := m.SetFloor(ctlstream.Floor{OffsetMM: math.NaN()}); !errors.Is(err, ctlstream.ErrInvalid) {
+		t.Errorf("SetFloor(NaN) = %v", err)
+	}
+}

@@ -75,8 +75,11 @@
 //
 // # Gating
 //
-// Send lets an estimate through with tracking only when a Gate trusts it:
-// DefaultConfirm estimates in a row at or above DefaultEnter confidence to
-// gain trust, one below DefaultLeave (or not found) to lose it. The gap
-// between the thresholds stops chatter when confidence hovers near one.
+// Send never sets tracking on its own: the caller's Tracking flag (from
+// the guidance.Tracker, which has its own confidence hysteresis) must be
+// set, and the alarm off. For callers without a tracker, Options.Gate adds
+// a Gate: DefaultConfirm estimates in a row at or above DefaultEnter
+// confidence to gain trust, one below DefaultLeave (or not found) to lose
+// it. The gap between the thresholds stops chatter when confidence hovers
+// near one.
 package ctlstream

@@ -9,8 +9,7 @@ import (
 )
 
 // A sender writing to a buffer, and a receiver following it: guidance is
-// sent with tracking once the gate trusted three frames, and usable by
-// the receiver after three tracking messages in a row; it is lost
+// usable by the receiver after three tracking messages in a row, and lost
 // once it grows stale.
 func Example() {
 	var wire bytes.Buffer
@@ -18,7 +17,7 @@ func Example() {
 	now := t0
 	s := ctlstream.NewWriter(&wire, ctlstream.Options{Session: 42, Now: func() time.Time { return now }})
 	var r ctlstream.Receiver
-	for i := 0; i < 6; i++ {
+	for i := 0; i < 4; i++ {
 		now = t0.Add(time.Duration(i) * 33 * time.Millisecond)
 		_ = s.Send(ctlstream.Message{Frame: i, Tracking: true, State: "tracking",
 			OffsetPx: -12, HeadingDeg: 2, Confidence: 0.9})
@@ -31,11 +30,9 @@ func Example() {
 	_, err := r.Guidance(now)
 	fmt.Println(err)
 	// Output:
-	// seq 1 tracking false usable false
-	// seq 2 tracking false usable false
-	// seq 3 tracking true usable false
-	// seq 4 tracking true usable false
-	// seq 5 tracking true usable true
-	// seq 6 tracking true usable true
+	// seq 1 tracking true usable false
+	// seq 2 tracking true usable false
+	// seq 3 tracking true usable true
+	// seq 4 tracking true usable true
 	// ctlstream: guidance lost: last guidance 400 ms old (limit 300 ms)
 }

@@ -25,24 +25,29 @@ func PurePursuitCurvature(forwardM, lateralM float64) (float64, error) {
 	return 2 * lateralM / l2, nil
 }
 
-// LineGoal finds the goal point for pure pursuit on a straight line given
-// in the vehicle frame by its lateral offset offsetM at the reference point
-// (positive = line to the right) and its heading headingRad from the
-// vehicle's forward axis (positive = the line turns right). It returns the
-// point of the line ahead of the vehicle at distance lookAheadM.
-func LineGoal(offsetM, headingRad, lookAheadM float64) (forwardM, lateralM float64, err error) {
-	if !finite(offsetM) || !finite(headingRad) || !(lookAheadM > 0) || math.IsInf(lookAheadM, 0) {
+// LineGoal finds the goal point for pure pursuit on a straight line. The
+// line is given in the vehicle frame (x forward, y right, metres, origin at
+// the steering reference point, for pure pursuit the rear axle's centre)
+// by one point, aheadM forward and offsetM to the right (where the camera
+// measured it), and its heading headingRad from the forward axis
+// (positive = the line turns right). It returns the point of the line
+// ahead of the vehicle at distance lookAheadM from the origin.
+func LineGoal(aheadM, offsetM, headingRad, lookAheadM float64) (forwardM, lateralM float64, err error) {
+	if !finite(aheadM) || !finite(offsetM) || !finite(headingRad) || !(lookAheadM > 0) || math.IsInf(lookAheadM, 0) {
 		return 0, 0, ErrNoGoal
 	}
-	// Points of the line: (s·cos θ, d + s·sin θ). |p| = L gives
-	// s² + 2·d·s·sin θ + d² − L² = 0; take the root further along the line.
+	// Points of the line: (D + s·cos θ, d + s·sin θ). |p| = L gives
+	// s² + 2·b·s + c = 0 with b = D·cos θ + d·sin θ, c = D² + d² − L²;
+	// take the root further along the line.
 	sin, cos := math.Sincos(headingRad)
-	disc := offsetM*offsetM*sin*sin - offsetM*offsetM + lookAheadM*lookAheadM
+	b := aheadM*cos + offsetM*sin
+	c := aheadM*aheadM + offsetM*offsetM - lookAheadM*lookAheadM
+	disc := b*b - c
 	if disc < 0 {
 		return 0, 0, ErrNoGoal
 	}
-	s := -offsetM*sin + math.Sqrt(disc)
-	forwardM, lateralM = s*cos, offsetM+s*sin
+	s := -b + math.Sqrt(disc)
+	forwardM, lateralM = aheadM+s*cos, offsetM+s*sin
 	if !(forwardM > 0) {
 		return 0, 0, ErrNoGoal
 	}
@@ -50,9 +55,10 @@ func LineGoal(offsetM, headingRad, lookAheadM float64) (forwardM, lateralM float
 }
 
 // LineCurvature is PurePursuitCurvature of LineGoal: the steering hint for
-// a line at offsetM and headingRad with look-ahead lookAheadM.
-func LineCurvature(offsetM, headingRad, lookAheadM float64) (float64, error) {
-	x, y, err := LineGoal(offsetM, headingRad, lookAheadM)
+// a line through (aheadM, offsetM) at headingRad with look-ahead
+// lookAheadM.
+func LineCurvature(aheadM, offsetM, headingRad, lookAheadM float64) (float64, error) {
+	x, y, err := LineGoal(aheadM, offsetM, headingRad, lookAheadM)
 	if err != nil {
 		return 0, err
 	}

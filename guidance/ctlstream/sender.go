@@ -34,9 +34,12 @@ type Options struct {
 	// AllowBroadcast lets NewUDP send to a broadcast or multicast address.
 	// Off by default: guidance goes to one explicit receiver.
 	AllowBroadcast bool
-	// Gate decides which estimates are trusted enough to send with
-	// Tracking set. nil means NewGate(DefaultEnter, DefaultLeave,
-	// DefaultConfirm).
+	// Gate, when set, must also trust an estimate before it goes out with
+	// Tracking set. Leave it nil when the caller's Tracking flag already
+	// comes from a tracker with its own confidence hysteresis (the
+	// guidance.Tracker does): a second gate would only cut coasting short.
+	// Set it (for example NewGate(DefaultEnter, DefaultLeave,
+	// DefaultConfirm)) when sending raw detections.
 	Gate *Gate
 	// Now is the clock used to stamp messages and to time heartbeats.
 	// nil means time.Now.
@@ -75,9 +78,6 @@ func NewWriter(w io.Writer, opt Options) *Sender {
 	if opt.StaleAfter <= 0 {
 		opt.StaleAfter = DefaultStaleAfter
 	}
-	if opt.Gate == nil {
-		opt.Gate = NewGate(DefaultEnter, DefaultLeave, DefaultConfirm)
-	}
 	if opt.Now == nil {
 		opt.Now = time.Now
 	}
@@ -98,8 +98,8 @@ func (s *Sender) Session() uint64 { return s.opt.Session }
 
 // Send sends one frame's estimate. The sender fills in Type (guidance),
 // Session, Seq, Sent and StaleAfter. The estimate goes out with Tracking
-// set only when m.Tracking is set, m.Alarm is not, and the gate trusts
-// m.Confidence; otherwise the offsets are withheld.
+// set only when m.Tracking is set, m.Alarm is not, and the gate (if any)
+// trusts m.Confidence; otherwise the offsets are withheld.
 //
 // If m holds a value that cannot be sent (a non-finite offset, a
 // confidence outside [0, 1]) Send still sends a message, with tracking off
@@ -112,7 +112,10 @@ func (s *Sender) Send(m Message) error {
 		return ErrHalted
 	}
 	m.Type = TypeGuidance
-	trusted := s.opt.Gate.Update(m.Tracking && !m.Alarm, m.Confidence)
+	trusted := m.Tracking && !m.Alarm
+	if s.opt.Gate != nil {
+		trusted = s.opt.Gate.Update(trusted, m.Confidence)
+	}
 	if m.Tracking && !trusted {
 		m.Tracking = false
 		if m.Reason == "" {
@@ -122,7 +125,9 @@ func (s *Sender) Send(m Message) error {
 	var bad error
 	if err := m.Validate(); err != nil {
 		bad = err
-		s.opt.Gate.Reset()
+		if s.opt.Gate != nil {
+			s.opt.Gate.Reset()
+		}
 		m = Message{Type: TypeGuidance, Frame: m.Frame, CaptureT: m.CaptureT, State: m.State,
 			Alarm: true, Reason: "invalid estimate withheld"}
 	}

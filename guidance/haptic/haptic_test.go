@@ -15,6 +15,7 @@ import (
 	"periph.io/x/conn/v3/gpio"
 	"periph.io/x/conn/v3/physic"
 
+	"github.com/hewline/hewline/guidance"
 	"github.com/hewline/hewline/guidance/haptic"
 	"github.com/hewline/hewline/guidance/haptic/haptictest"
 )
@@ -445,3 +446,29 @@ type discard struct{}
 func (discard) Set(l, r haptic.Level) error { return nil }
 func (discard) Halt() error                 { return nil }
 func (discard) Close() error                { return nil }
+
+func TestCueFrom(t *testing.T) {
+	tests := map[string]struct {
+		e     guidance.Estimate
+		side  string
+		alarm bool
+	}{
+		"holding right": {guidance.Estimate{State: guidance.Holding, Tracking: true, OffsetPx: 200}, "right", false},
+		"holding left":  {guidance.Estimate{State: guidance.Holding, Tracking: true, OffsetPx: -200}, "left", false},
+		"seeking quiet": {guidance.Estimate{State: guidance.Seeking, OffsetPx: 200}, "", false},
+		"lost alarms":   {guidance.Estimate{State: guidance.Lost, Alarm: true, OffsetPx: 200}, "both", true},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			c := haptic.CueFrom(guidance.Decide(tc.e), 320)
+			if c.Alarm != tc.alarm {
+				t.Fatalf("cue %+v", c)
+			}
+			l, r := haptic.NewMapper().Map(c)
+			side := map[[2]bool]string{{true, true}: "", {false, true}: "left", {true, false}: "right", {false, false}: "both"}[[2]bool{l.Silent(), r.Silent()}]
+			if side != tc.side {
+				t.Errorf("side %q, want %q", side, tc.side)
+			}
+		})
+	}
+}

@@ -173,7 +173,9 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	}
 	// The reference row should lie on or near the measured stretch.
 	if e := math.Max(yRefW-(r.yHi+step), (r.yLo-step)-yRefW); e > 0 {
-		fs = append(fs, factor{clamp01(1 - e/(0.3*roiH)), "reference row off the measured stretch"})
+		// Extrapolating the offset beyond the seen stretch is a guess: a tenth
+		// of the ROI height away the factor reaches 0.
+		fs = append(fs, factor{clamp01(1 - e/(0.1*roiH)), "reference row off the measured stretch"})
 	}
 	if hint.Valid {
 		if !fromPrior {

@@ -53,6 +53,18 @@ func RandomScene(rng *rand.Rand, w, h int) Scene {
 	for i := range tape {
 		tape[i] = math.Min(255, tape[i]*k+u(-15, 15))
 	}
+	// The network reads grey levels, so a tape of the floor's own
+	// brightness is invisible to it: keep at least 30 levels between them
+	// (at full light) by moving the floor away from the tape.
+	if d := luma(tape) - luma(floor); math.Abs(d) < 30 {
+		shift := 30 + d // floor brighter than a dark tape (d < 0)
+		if d >= 0 {
+			shift = -(30 - d) // floor darker than a bright tape
+		}
+		for i := range floor {
+			floor[i] = math.Max(0, math.Min(255, floor[i]+shift))
+		}
+	}
 	sc := Scene{
 		W: w, H: h, Floor: floor, Tape: tape,
 		Texture: u(0, 30), TextureCell: u(2, 12) * W / 160,
@@ -142,6 +154,10 @@ func (sc Scene) Render(dst *gocv.Mat) error {
 	}
 	return nil
 }
+
+// luma is the grey level OpenCV's BGR-to-grey conversion gives (ITU-R
+// BT.601 weights).
+func luma(c [3]float64) float64 { return 0.114*c[0] + 0.587*c[1] + 0.299*c[2] }
 
 func clampByte(v float64) uint8 {
 	switch {

@@ -24,12 +24,26 @@ type TrainConfig struct {
 	Seed     uint64  // shuffling and the split [1]
 	ValFrac  float64 // share of the data held out for validation [0.15]
 	Patience int     // epochs without a better validation loss before stopping [4]
+	// Mirror, when true, flips each training sample left to right (and
+	// its cells with it) with probability ½ each time it is used: a free
+	// doubling of the data, since a stripe seen in a mirror is still a
+	// stripe.
+	Mirror bool
 	// Log, when not nil, gets one line per epoch (loss and accuracy).
 	Log io.Writer
 	// Step, when not nil, is called after every Adam step with the
 	// number of samples seen so far in this epoch (for a progress bar).
 	Step func(epoch, done, total int)
+	// Stop, when not nil, is asked after every step; true ends training
+	// (for Ctrl-C). Train then returns ErrStopped.
+	Stop func() bool
 }
+
+// ErrStopped is returned when TrainConfig.Stop ended training.
+var ErrStopped = errors.New("cnn: training stopped")
+
+// NewRand returns the generator this package uses for seed (PCG).
+func NewRand(seed uint64) *rand.Rand { return rand.New(rand.NewPCG(seed, 0x77656967687473)) }
 
 // EpochStats is the record of one epoch.
 type EpochStats struct {
@@ -95,6 +109,9 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 			}
 		}
 	}
+	if cfg.Mirror && a.InW%a.Cells != 0 {
+		return nil, fmt.Errorf("cnn: mirroring needs the input width %d to be a multiple of the cells %d", a.InW, a.Cells)
+	}
 	rng := rand.New(rand.NewPCG(cfg.Seed, 0x6865776c696e65))
 	idx := rng.Perm(len(data))
 	nVal := int(math.Round(float64(len(data)) * cfg.ValFrac))
@@ -111,6 +128,7 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 	g, bg := newGrads(m), newGrads(m)
 	mom, vel := newGrads(m), newGrads(m)
 	wk := newWork(a)
+	flipIn, flipLab := make([]float32, a.InW*a.InH), make([]uint8, a.Rows)
 	best, bestLoss, since := m.clone(), math.Inf(1), 0
 	var stats []EpochStats
 	step := 0
@@ -121,8 +139,13 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 			end := min(b+cfg.Batch, len(train))
 			bg.zero()
 			for _, k := range train[b:end] {
-				m.forward(wk, data[k].In)
-				sum += m.backward(wk, data[k].Labels, bg)
+				in, lab := data[k].In, data[k].Labels
+				if cfg.Mirror && rng.IntN(2) == 1 {
+					mirror(a, in, lab, flipIn, flipLab)
+					in, lab = flipIn, flipLab
+				}
+				m.forward(wk, in)
+				sum += m.backward(wk, lab, bg)
 			}
 			n := float32(end - b)
 			for i := range bg {
@@ -134,6 +157,9 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 			adamStep(params, g, mom, vel, cfg.LR, step)
 			if cfg.Step != nil {
 				cfg.Step(ep, end, len(train))
+			}
+			if cfg.Stop != nil && cfg.Stop() {
+				return stats, ErrStopped
 			}
 		}
 		st := EpochStats{Epoch: ep, TrainLoss: sum / float64(len(train)), Val: Evaluate(m, val)}
@@ -158,6 +184,23 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 	*m = *best
 	m.Notes = notes
 	return stats, nil
+}
+
+// mirror writes the left-right mirror image of a sample into in2, lab2.
+func mirror(a Arch, in []float32, lab []uint8, in2 []float32, lab2 []uint8) {
+	for y := 0; y < a.InH; y++ {
+		row, out := in[y*a.InW:(y+1)*a.InW], in2[y*a.InW:(y+1)*a.InW]
+		for x := range row {
+			out[a.InW-1-x] = row[x]
+		}
+	}
+	for r, l := range lab {
+		if int(l) == a.Absent() {
+			lab2[r] = l
+		} else {
+			lab2[r] = uint8(a.Cells - 1 - int(l))
+		}
+	}
 }
 
 // adamStep moves every parameter by one Adam update with bias correction.

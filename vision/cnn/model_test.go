@@ -1,0 +1,215 @@
+package cnn
+
+import (
+	"image"
+	"math"
+	"os"
+	"strconv"
+	"testing"
+
+	"github.com/hewline/hewline/vision"
+	"gocv.io/x/gocv"
+)
+
+const shippedPath = "../../testdata/models/stripe-rowanchor.onnx"
+
+func shippedDetector(t testing.TB, cfg Config) *Detector {
+	t.Helper()
+	b, err := os.ReadFile(shippedPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d, err := NewDetector(b, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return d
+}
+
+func TestShippedModelMetadata(t *testing.T) {
+	st, err := os.Stat(shippedPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if st.Size() > 400<<10 {
+		t.Errorf("shipped model is %d bytes, keep it under 400 KB", st.Size())
+	}
+	d := shippedDetector(t, Config{})
+	defer d.Close()
+	if got, want := d.Arch().String(), DefaultArch().String(); got != want {
+		t.Errorf("arch %s, want %s", got, want)
+	}
+	n := d.Notes()
+	for _, k := range []string{"train.command", "train.seed", "train.val_within_1_cell"} {
+		if n[k] == "" {
+			t.Errorf("metadata %s missing (have %v)", k, n)
+		}
+	}
+	if v, _ := strconv.ParseFloat(n["train.val_within_1_cell"], 64); v < 0.8 {
+		t.Errorf("recorded validation accuracy within one cell %v, want ≥ 0.8", v)
+	}
+}
+
+// trueHeading is the scene's heading at row y in the conventions of
+// vision/doc.go, from the derivative of its centreline.
+func trueHeading(sc Scene, y float64) float64 {
+	x1, _ := sc.CentreX(y - 1)
+	x0, _ := sc.CentreX(y + 1)
+	return math.Atan((x1-x0)/2) * 180 / math.Pi
+}
+
+// TestShippedModelFindsStripe checks the shipped model on frames of 640×480
+// with the tolerance of the TuSimple lane benchmark scaled to this width:
+// 20 px at 1280 wide is 10 px here (TuSimple's evaluate/lane.py; see
+// /work/shared/REFERENCES.md). The mean error over the detected points
+// must stay within it. Heading must be within 6° (a tolerance of this
+// test, not a standard).
+func TestShippedModelFindsStripe(t *testing.T) {
+	d := shippedDetector(t, Config{})
+	defer d.Close()
+	yellow := [3]float64{20, 200, 235}
+	base := func() Scene {
+		return Scene{W: 640, H: 480, Floor: [3]float64{110, 115, 118}, Tape: yellow, Texture: 10, TextureCell: 20,
+			Present: true, X0: 320, Length: 1, WidthNear: 50, WidthFar: 30, Gain: 1, Seed: 3}
+	}
+	tests := map[string]func(*Scene){
+		"centred":         func(s *Scene) {},
+		"right of centre": func(s *Scene) { s.X0 = 450 },
+		"left, leaning right": func(s *Scene) {
+			s.X0, s.Slope = 200, 0.4
+		},
+		"leaning left": func(s *Scene) { s.X0, s.Slope = 400, -0.3 },
+		"curving":      func(s *Scene) { s.X0, s.Slope, s.Curve = 300, 0.1, 0.3 },
+		"dim": func(s *Scene) {
+			s.Gain = 0.35
+		},
+		"white on dark": func(s *Scene) {
+			s.Floor, s.Tape = [3]float64{50, 50, 55}, [3]float64{225, 225, 220}
+		},
+	}
+	for name, mod := range tests {
+		t.Run(name, func(t *testing.T) {
+			sc := base()
+			mod(&sc)
+			img := renderScene(t, sc)
+			defer img.Close()
+			det := d.Detect(img, vision.Hint{})
+			if !det.Found {
+				t.Fatalf("not found: %s", det.Reason)
+			}
+			if det.Method != Method || len(det.Points) < 8 {
+				t.Errorf("method %q, %d points", det.Method, len(det.Points))
+			}
+			errPx, n := rowError(det, sc.CentreX)
+			tx, _ := sc.CentreX(det.RefRow)
+			th := trueHeading(sc, det.RefRow)
+			t.Logf("mean error %.1f px over %d points; offset %.1f (true %.1f), heading %.1f° (true %.1f°), confidence %.2f",
+				errPx, n, det.OffsetPx, tx-320, det.HeadingDeg, th, det.Confidence)
+			if errPx > 10 {
+				t.Errorf("mean error %.1f px, want ≤ 10", errPx)
+			}
+			if math.Abs(det.OffsetPx-(tx-320)) > 10 {
+				t.Errorf("offset %.1f px, true %.1f", det.OffsetPx, tx-320)
+			}
+			if math.Abs(det.HeadingDeg-th) > 6 {
+				t.Errorf("heading %.1f°, true %.1f°", det.HeadingDeg, th)
+			}
+			if det.Confidence < 0.5 {
+				t.Errorf("confidence %.2f on a clear frame", det.Confidence)
+			}
+		})
+	}
+	t.Run("bare floor", func(t *testing.T) {
+		sc := base()
+		sc.Present = false
+		img := renderScene(t, sc)
+		defer img.Close()
+		det := d.Detect(img, vision.Hint{})
+		if det.Found && det.Confidence > 0.3 {
+			t.Errorf("found a stripe on a bare floor with confidence %.2f", det.Confidence)
+		}
+	})
+}
+
+// TestDetectorROI: with a region of interest the points come back in frame
+// pixels.
+func TestDetectorROI(t *testing.T) {
+	d := shippedDetector(t, Config{ROI: image.Rect(0, 160, 640, 480)})
+	defer d.Close()
+	sc := Scene{W: 640, H: 480, Floor: [3]float64{100, 100, 100}, Tape: [3]float64{20, 200, 235}, Present: true,
+		X0: 380, Length: 1, WidthNear: 50, WidthFar: 40, Gain: 1}
+	img := renderScene(t, sc)
+	defer img.Close()
+	det := d.Detect(img, vision.Hint{})
+	if !det.Found {
+		t.Fatalf("not found: %s", det.Reason)
+	}
+	for _, p := range det.Points {
+		if p.Y < 160 || math.Abs(p.X-380) > 10 {
+			t.Errorf("point %+v, want y ≥ 160 and x near 380", p)
+		}
+	}
+	if len(d.Rows()) != DefaultArch().Rows {
+		t.Errorf("%d rows reported", len(d.Rows()))
+	}
+}
+
+func TestDetectorBadInput(t *testing.T) {
+	d := shippedDetector(t, Config{})
+	defer d.Close()
+	tests := map[string]gocv.Mat{
+		"empty": gocv.NewMat(),
+		"grey":  gocv.NewMatWithSize(480, 640, gocv.MatTypeCV8U),
+	}
+	for name, img := range tests {
+		t.Run(name, func(t *testing.T) {
+			defer img.Close()
+			det := d.Detect(img, vision.Hint{})
+			if det.Found || det.Reason == "" {
+				t.Errorf("got %+v, want not found with a reason", det)
+			}
+		})
+	}
+	if _, err := NewDetector(nil, Config{}); err == nil {
+		t.Error("NewDetector accepted no bytes")
+	}
+}
+
+func BenchmarkDetect640x480(b *testing.B) {
+	d := shippedDetector(b, Config{})
+	defer d.Close()
+	sc := Scene{W: 640, H: 480, Floor: [3]float64{100, 100, 100}, Tape: [3]float64{20, 200, 235}, Present: true,
+		X0: 380, Length: 1, WidthNear: 50, WidthFar: 40, Gain: 1}
+	img := renderScene(b, sc)
+	defer img.Close()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		d.Detect(img, vision.Hint{})
+	}
+}
+
+func BenchmarkNetForward(b *testing.B) {
+	d := shippedDetector(b, Config{})
+	defer d.Close()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if err := d.net.Forward(d.in, d.out); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+func BenchmarkTrainSample(b *testing.B) {
+	a := DefaultArch()
+	m, _ := NewModel(a, NewRand(1))
+	data, err := SceneSamples(a, 1, 1)
+	if err != nil {
+		b.Fatal(err)
+	}
+	wk, g := newWork(a), newGrads(m)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		m.forward(wk, data[0].In)
+		m.backward(wk, data[0].Labels, g)
+	}
+}

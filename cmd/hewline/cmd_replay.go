@@ -1,0 +1,134 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"gocv.io/x/gocv"
+
+	"github.com/hewline/hewline/guidance"
+	"github.com/hewline/hewline/guidance/score"
+	"github.com/hewline/hewline/vision"
+)
+
+type gocvMat = gocv.Mat
+
+func init() {
+	register(&command{
+		name:    "replay",
+		summary: "run detection and guidance over every frame of recorded clips (video files or image folders)",
+		run:     runReplay,
+	})
+}
+
+func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	fs := newFlags("replay", "[options] CLIP...", stderr)
+	track := fs.String("track", "", "write the track log of the (single) clip to `FILE` (default: CLIP's name + .track.ndjson in -out)")
+	out := fs.String("out", ".", "`DIR` for track logs (and annotated videos) when -track is not given")
+	truthF := fs.String("truth", "", "score against the truth `FILE` (one clip), or \"auto\" to use CLIP.truth.ndjson beside each clip")
+	video := fs.Bool("video", false, "also write an annotated video (CLIP.annotated.avi in -out)")
+	o := replayFlags(fs)
+	if err := parseFlags(fs, args); err != nil {
+		return err
+	}
+	clips := fs.Args()
+	if len(clips) == 0 {
+		return usagef("no clip given")
+	}
+	if *track != "" && len(clips) > 1 {
+		return usagef("-track names one file; with several clips use -out DIR")
+	}
+	if *truthF != "" && *truthF != "auto" && len(clips) > 1 {
+		return usagef("-truth FILE scores one clip; with several clips use -truth auto")
+	}
+	o.progress = isTerminal(stderr)
+	var results []*score.Result
+	var failed []string
+	for _, clip := range clips {
+		logPath := *track
+		if logPath == "" {
+			logPath = filepath.Join(*out, clipBase(clip)+".track.ndjson")
+		}
+		videoPath := ""
+		if *video {
+			videoPath = filepath.Join(*out, clipBase(clip)+".annotated.avi")
+		}
+		res, err := replayClip(ctx, clip, logPath, videoPath, o, stderr)
+		if res == nil {
+			if errors.As(err, new(usageError)) || len(clips) == 1 {
+				return err
+			}
+			fmt.Fprintf(stderr, "hewline replay: %v\n", err)
+			failed = append(failed, clip)
+			continue
+		}
+		if tp := truthPath(*truthF, clip); tp != "" {
+			sc, serr := scoreClip(clipBase(clip), logPath, tp)
+			if serr != nil {
+				fmt.Fprintf(stderr, "hewline replay: score: %v\n", serr)
+				failed = append(failed, clip)
+			} else {
+				res.score = sc
+				results = append(results, sc)
+			}
+		}
+		printSummary(stdout, res)
+		if err != nil {
+			if errors.Is(err, context.Canceled) {
+				return err
+			}
+			if len(clips) == 1 {
+				return fmt.Errorf("%w (the track log %s holds every frame read before it)", err, logPath)
+			}
+			fmt.Fprintf(stderr, "hewline replay: %v (the track log holds every frame read before it)\n", err)
+			failed = append(failed, clip)
+		}
+	}
+	if len(results) > 0 {
+		fmt.Fprintln(stdout)
+		if len(results) > 1 {
+			results = append(results, score.Combine("overall", results))
+		}
+		score.WriteTable(stdout, results)
+	}
+	if len(failed) > 0 {
+		return fmt.Errorf("%d of %d clips failed: %s", len(failed), len(clips), strings.Join(failed, ", "))
+	}
+	return nil
+}
+
+// truthPath resolves -truth for one clip ("" = no scoring).
+func truthPath(flag, clip string) string {
+	switch flag {
+	case "":
+		return ""
+	case "auto":
+		p := strings.TrimSuffix(strings.TrimRight(clip, "/"), filepath.Ext(clip)) + ".truth.ndjson"
+		if _, err := os.Stat(p); err == nil {
+			return p
+		}
+		return ""
+	}
+	return flag
+}
+
+// replayFlags adds the options shared by replay and demo.
+func replayFlags(fs *flag.FlagSet) *replayOptions {
+	o := &replayOptions{vision: vision.DefaultConfig()}
+	def := guidance.DefaultConfig()
+	fs.StringVar(&o.follow, "follow", "stripe", "what to follow: `stripe` (lane mode is not in this version)")
+	fs.DurationVar(&o.failSafe, "failsafe", def.FailSafeAfter, "raise the fail-safe alarm after this long without a trusted measurement")
+	fs.DurationVar(&o.reacquire, "reacquire", def.ReacquireFor, "see the line this long before guidance resumes after a loss")
+	fs.Func("polarity", "stripe lighter or darker than the floor: auto, light or dark (default auto)", func(s string) error {
+		p, err := vision.ParsePolarity(s)
+		o.vision.Polarity = p
+		return err
+	})
+	return o
+}

@@ -1,0 +1,225 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/schollz/progressbar/v3"
+	"golang.org/x/term"
+
+	"github.com/hewline/hewline/capture"
+	"github.com/hewline/hewline/capture/truth"
+	"github.com/hewline/hewline/cmd/internal/pipeline"
+	"github.com/hewline/hewline/guidance"
+	"github.com/hewline/hewline/guidance/score"
+	"github.com/hewline/hewline/guidance/tracklog"
+	"github.com/hewline/hewline/vision"
+)
+
+// replayOptions are the settings shared by replay and demo.
+type replayOptions struct {
+	follow    string
+	failSafe  time.Duration
+	reacquire time.Duration
+	progress  bool
+	vision    vision.Config
+}
+
+func (o *replayOptions) trackerConfig() (guidance.Config, error) {
+	c := guidance.DefaultConfig()
+	c.FailSafeAfter = o.failSafe
+	c.ReacquireFor = o.reacquire
+	return c, c.Validate()
+}
+
+// clipResult is what one replayed clip produced.
+type clipResult struct {
+	clip   string
+	log    string
+	stats  pipeline.Stats
+	sum    tracklog.Summary
+	score  *score.Result
+	took   time.Duration
+	srcErr error
+}
+
+// replayClip runs one clip through the pipeline, writing the track log to
+// logPath and, when videoPath is set, the annotated video. The log is
+// complete (summary line included) even when the source fails part way; the
+// source's error is returned in clipResult.srcErr and as the error.
+func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayOptions, stderr io.Writer) (*clipResult, error) {
+	src, err := capture.Open(clip)
+	if err != nil {
+		return nil, err
+	}
+	defer src.Close()
+	info := src.Info()
+
+	if o.follow != "" && o.follow != "stripe" {
+		return nil, usagef("--follow %s: only stripe is available in this version", o.follow)
+	}
+	det, err := vision.NewClassical(o.vision)
+	if err != nil {
+		return nil, err
+	}
+	defer det.Close()
+	tcfg, err := o.trackerConfig()
+	if err != nil {
+		return nil, usagef("%v", err)
+	}
+	tr, err := guidance.NewTracker(tcfg)
+	if err != nil {
+		return nil, err
+	}
+
+	if err := os.MkdirAll(filepath.Dir(logPath), 0o755); err != nil {
+		return nil, err
+	}
+	lf, err := os.Create(logPath)
+	if err != nil {
+		return nil, fmt.Errorf("track log: %w", err)
+	}
+	defer lf.Close()
+	lw, err := tracklog.NewWriter(lf, tracklog.Header{
+		Tool: "hewline " + version, Source: info.Name, Kind: info.Kind,
+		Width: info.Size.X, Height: info.Size.Y, FPS: info.FPS, Follow: "stripe",
+		Started: time.Now().UTC().Format(time.RFC3339),
+		Settings: map[string]any{
+			"fail_safe_after_s": tcfg.FailSafeAfter.Seconds(),
+			"reacquire_for_s":   tcfg.ReacquireFor.Seconds(),
+			"tracker":           tcfg.String(),
+			"detector":          o.vision,
+		},
+	})
+	if err != nil {
+		return nil, err
+	}
+	sinks := []pipeline.Sink{&pipeline.LogSink{W: lw}}
+	var vs *pipeline.VideoSink
+	if videoPath != "" {
+		vs = &pipeline.VideoSink{Path: videoPath, FPS: info.FPS}
+		defer vs.Close()
+		sinks = append(sinks, vs)
+	}
+	var bar *progressbar.ProgressBar
+	if o.progress {
+		bar = newBar(info, filepath.Base(clip), stderr)
+		sinks = append(sinks, barSink{bar})
+	}
+	start := time.Now()
+	st, runErr := pipeline.Run(ctx, src, pipeline.Config{Detector: det, Tracker: tr, Sinks: sinks})
+	if bar != nil {
+		bar.Finish()
+		fmt.Fprintln(stderr)
+	}
+	end := "eof"
+	switch {
+	case errors.Is(runErr, context.Canceled):
+		end = "interrupted"
+	case runErr != nil:
+		end = "error: " + runErr.Error()
+	}
+	took := time.Since(start)
+	if err := lw.Close(end, map[string]float64{"drops": float64(st.Drops), "size_changes": float64(st.SizeChanges), "wall_s": took.Seconds()}); err != nil && runErr == nil {
+		runErr = err
+	}
+	if vs != nil {
+		vs.Close()
+	}
+	res := &clipResult{clip: clip, log: logPath, stats: st, sum: lw.Summary(), took: took, srcErr: runErr}
+	return res, runErr
+}
+
+type barSink struct{ b *progressbar.ProgressBar }
+
+func (s barSink) Frame(*pipeline.Result, gocvMat) error { return s.b.Add(1) }
+
+func newBar(info capture.SourceInfo, name string, w io.Writer) *progressbar.ProgressBar {
+	return progressbar.NewOptions(info.Frames,
+		progressbar.OptionSetWriter(w),
+		progressbar.OptionSetDescription(name),
+		progressbar.OptionShowCount(),
+		progressbar.OptionShowIts(),
+		progressbar.OptionSetItsString("frames"),
+		progressbar.OptionThrottle(100*time.Millisecond),
+	)
+}
+
+// isTerminal reports whether w is a terminal (for the progress bar).
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+// scoreClip scores a replayed clip's log against a truth file.
+func scoreClip(name, logPath, truthPath string) (*score.Result, error) {
+	tf, err := os.Open(truthPath)
+	if err != nil {
+		return nil, fmt.Errorf("truth %s: %w", truthPath, err)
+	}
+	defer tf.Close()
+	h, frames, err := truth.Read(tf)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", truthPath, err)
+	}
+	lf, err := os.Open(logPath)
+	if err != nil {
+		return nil, err
+	}
+	defer lf.Close()
+	l, err := tracklog.Read(lf)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", logPath, err)
+	}
+	return score.Clip(name, h, frames, l.Records)
+}
+
+// printSummary writes a short human summary of one clip.
+func printSummary(w io.Writer, r *clipResult) {
+	s := r.sum
+	fps := 0.0
+	if r.took > 0 {
+		fps = float64(s.Frames) / r.took.Seconds()
+	}
+	fmt.Fprintf(w, "%s: %d frames in %.2f s (%.0f frames/s); tracking %d (%.1f %%), alarm %d frames in %d alarm(s)",
+		r.clip, s.Frames, r.took.Seconds(), fps, s.TrackingFrames, pct(s.TrackingFrames, s.Frames), s.AlarmFrames, s.Alarms)
+	if r.stats.SizeChanges > 0 {
+		fmt.Fprintf(w, "; %d frame-size changes", r.stats.SizeChanges)
+	}
+	fmt.Fprintf(w, "\n  track log: %s\n", r.log)
+	if r.score != nil {
+		sc := r.score
+		fmt.Fprintf(w, "  against truth: recall %.3f, median error %.2f px, p95 %.2f px, false tracks %d, losses %d, max alarm latency %s, false alarms %d\n",
+			sc.Recall(), sc.MedianError(), sc.P95Error(), sc.FalseTracks, sc.Losses, latency(sc), sc.FalseAlarms)
+	}
+}
+
+func latency(sc *score.Result) string {
+	l := sc.MaxLatency()
+	switch {
+	case sc.MissedAlarms > 0:
+		return fmt.Sprintf("MISSED (%d)", sc.MissedAlarms)
+	case l != l:
+		return "– (no loss)"
+	}
+	return fmt.Sprintf("%.3f s", l)
+}
+
+func pct(a, b int) float64 {
+	if b == 0 {
+		return 0
+	}
+	return 100 * float64(a) / float64(b)
+}
+
+// clipBase is a clip's name without folder and extension.
+func clipBase(clip string) string {
+	b := filepath.Base(strings.TrimRight(clip, "/"))
+	return strings.TrimSuffix(b, filepath.Ext(b))
+}

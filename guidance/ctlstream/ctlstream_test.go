@@ -8,6 +8,7 @@ import (
 	"math"
 	"net"
 	"os/exec"
+	"runtime"
 	"strings"
 	"sync"
 	"testing"
@@ -831,5 +832,92 @@ func TestFromEstimate(t *testing.T) {
 	m := ctlstream.FromEstimate(guidance.Estimate{State: guidance.Holding, Tracking: true}, 1)
 	if err := m.SetFloor(ctlstream.Floor{OffsetMM: math.NaN()}); !errors.Is(err, ctlstream.ErrInvalid) {
 		t.Errorf("SetFloor(NaN) = %v", err)
+	}
+}
+
+// TestHeartbeatRealClock runs the heartbeat goroutine on a real ticker over
+// loopback UDP. It checks order and spacing (never closer than the
+// interval), not speed: the upper bound is only a generous deadline.
+func TestHeartbeatRealClock(t *testing.T) {
+	pc := listen(t)
+	s, err := ctlstream.NewUDP(pc.LocalAddr().String(), ctlstream.Options{Heartbeat: 20 * time.Millisecond})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	tick := time.NewTicker(5 * time.Millisecond)
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		s.Run(ctx, tick.C, nil)
+	}()
+	defer func() { cancel(); tick.Stop(); <-done; s.Close() }()
+	var r ctlstream.Receiver
+	var prev ctlstream.Message
+	for i := 0; i < 4; i++ {
+		m, err := r.Receive(pc, time.Now().Add(10*time.Second), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if m.Type != ctlstream.TypeHeartbeat || !m.Alarm {
+			t.Fatalf("got %+v, want an alarm heartbeat (no frame ever sent)", m)
+		}
+		if i > 0 {
+			if m.Seq != prev.Seq+1 {
+				t.Fatalf("seq %d after %d", m.Seq, prev.Seq)
+			}
+			if gap := m.Sent.Sub(prev.Sent); gap < 20*time.Millisecond {
+				t.Fatalf("heartbeats %v apart, interval 20 ms", gap)
+			}
+		}
+		prev = m
+	}
+	if r.Fresh(time.Now()) {
+		t.Error("heartbeats alone gave fresh guidance")
+	}
+}
+
+// TestUDPNoListener: with nobody listening, sends may fail (ICMP port
+// unreachable on loopback) but the sender keeps working for when the
+// controller comes up.
+func TestUDPNoListener(t *testing.T) {
+	pc, err := net.ListenPacket("udp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	addr := pc.LocalAddr().String()
+	pc.Close()
+	s, err := ctlstream.NewUDP(addr, ctlstream.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	var failed int
+	for i := 0; i < 5; i++ {
+		if err := s.Send(tracked(i, 0, 0.9)); err != nil {
+			failed++
+			if errors.Is(err, ctlstream.ErrHalted) || errors.Is(err, ctlstream.ErrInvalid) {
+				t.Fatalf("send %d: %v", i, err)
+			}
+		}
+	}
+	t.Logf("%d of 5 sends reported the missing receiver", failed)
+	if runtime.GOOS == "linux" && failed == 0 {
+		t.Error("no send told the caller that nobody listens (Linux loopback answers with ICMP port unreachable)")
+	}
+	pc2, err := net.ListenPacket("udp", addr)
+	if err != nil {
+		t.Skipf("port %s taken again meanwhile: %v", addr, err)
+	}
+	defer pc2.Close()
+	// The first send may still report the refusal of an earlier message,
+	// but it must get through.
+	if err := s.Send(tracked(5, 0, 0.9)); err != nil && !errors.Is(err, ctlstream.ErrRefused) {
+		t.Fatal(err)
+	}
+	var r ctlstream.Receiver
+	m, err := r.Receive(pc2, time.Now().Add(5*time.Second), nil)
+	if err != nil || m.Frame != 5 {
+		t.Fatalf("after the receiver came up: %+v, %v", m, err)
 	}
 }

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"sync"
+	"syscall"
 	"time"
 )
 
@@ -23,6 +24,10 @@ const (
 
 // ErrHalted: the sender was halted or closed and sends nothing more.
 var ErrHalted = errors.New("ctlstream: sender halted")
+
+// ErrRefused: the message was sent, but the receiver had refused an
+// earlier one (nothing listening at the UDP destination).
+var ErrRefused = errors.New("ctlstream: receiver refused an earlier message (is the controller listening?)")
 
 // Options configure a Sender. The zero value gives the defaults.
 type Options struct {
@@ -156,7 +161,16 @@ func (s *Sender) write(m *Message) error {
 	}
 	s.buf = b
 	s.last, s.sentAny = m.Sent, true
-	if _, err := s.w.Write(b); err != nil {
+	_, err = s.w.Write(b)
+	if errors.Is(err, syscall.ECONNREFUSED) {
+		// On a connected UDP socket this is the ICMP answer to an earlier
+		// datagram, reported on this write, which was not sent: send it
+		// again, and report that the receiver was not listening.
+		if _, err = s.w.Write(b); err == nil {
+			return fmt.Errorf("ctlstream: send %s %d: %w", m.Type, m.Seq, ErrRefused)
+		}
+	}
+	if err != nil {
 		return fmt.Errorf("ctlstream: send %s %d: %w", m.Type, m.Seq, err)
 	}
 	return nil

@@ -921,3 +921,46 @@ func TestUDPNoListener(t *testing.T) {
 		t.Fatalf("after the receiver came up: %+v, %v", m, err)
 	}
 }
+
+// TestLatency: a frame older than StaleAfter when sent must not steer, and
+// the receiver counts the sender's latency into the age of guidance.
+func TestLatency(t *testing.T) {
+	var w lines
+	c := newClock()
+	s := ctlstream.NewWriter(&w, ctlstream.Options{Now: c.Now, Session: 2, StaleAfter: 300 * time.Millisecond})
+	var r ctlstream.Receiver
+	send := func(frame int, age time.Duration) ctlstream.Message {
+		t.Helper()
+		m := tracked(frame, 5, 0.9)
+		m.CapturedAt = c.Now().Add(-age)
+		if err := s.Send(m); err != nil {
+			t.Fatal(err)
+		}
+		msgs := w.decoded(t)
+		got := msgs[len(msgs)-1]
+		if _, err := r.Accept(w.msg[len(w.msg)-1], c.Now()); err != nil {
+			t.Fatal(err)
+		}
+		return got
+	}
+	for i := 0; i < 3; i++ {
+		c.Add(33 * time.Millisecond)
+		if m := send(i, 40*time.Millisecond); !m.Tracking || m.LatencyMS == nil || *m.LatencyMS != 40 {
+			t.Fatalf("frame %d: %+v", i, m)
+		}
+	}
+	if !r.Fresh(c.Now()) {
+		t.Fatal("fresh guidance with 40 ms latency declared lost")
+	}
+	// 40 ms latency + 261 ms since arrival = 301 ms > 300 ms.
+	if r.Fresh(c.Now().Add(261 * time.Millisecond)) {
+		t.Error("latency not counted into the age of guidance")
+	}
+	if !r.Fresh(c.Now().Add(259 * time.Millisecond)) {
+		t.Error("lost before latency + age reached the limit")
+	}
+	c.Add(33 * time.Millisecond)
+	if m := send(3, 350*time.Millisecond); m.Tracking || m.OffsetPx != 0 || !strings.Contains(m.Reason, "350 ms old") {
+		t.Errorf("350 ms old frame sent as %+v, want withheld", m)
+	}
+}

@@ -28,6 +28,7 @@
 //	frame              int      frame index of the estimate (heartbeat/halt: last frame, -1 before any)
 //	t_capture_s        float    frame's capture time, seconds from the start of the source
 //	sent_unix_ns       int      sender's wall clock when sent, ns since 1970 (clocks may differ)
+//	latency_ms         float    capture to sending, ms, by the sender's clock; null when unknown
 //	tracking           bool     true only when the offsets below may be used to steer
 //	alarm              bool     fail-safe alarm raised; never true together with tracking
 //	state              string   tracker state name, for display and logs
@@ -46,7 +47,7 @@
 //
 // Example (tracking, uncalibrated):
 //
-//	{"v":1,"type":"guidance","session":77,"seq":12,"frame":11,"t_capture_s":0.366667,"sent_unix_ns":1764650000000000000,"tracking":true,"alarm":false,"state":"tracking","offset_px":-14.2500,"offset_mm":null,"heading_deg":3.1000,"heading_floor_deg":null,"confidence":0.9100,"curvature_per_m":null,"stale_after_ms":300,"reason":""}
+//	{"v":1,"type":"guidance","session":77,"seq":12,"frame":11,"t_capture_s":0.366667,"sent_unix_ns":1764650000000000000,"latency_ms":41.0,"tracking":true,"alarm":false,"state":"tracking","offset_px":-14.2500,"offset_mm":null,"heading_deg":3.1000,"heading_floor_deg":null,"confidence":0.9100,"curvature_per_m":null,"stale_after_ms":300,"reason":""}
 //
 // The curvature hint is pure pursuit (Coulter, "Implementation of the Pure
 // Pursuit Path Tracking Algorithm", CMU-RI-TR-92-01, 1992): for a goal point
@@ -59,8 +60,8 @@
 // stop or hold the vehicle safely, when any of these holds:
 //
 //   - no message for stale_after_ms (by its own clock), or the last
-//     guidance message is older than that (heartbeats keep the link alive
-//     but carry no guidance);
+//     guidance message's frame is older than that (time since arrival plus
+//     latency_ms; heartbeats keep the link alive but carry no guidance);
 //   - a seq number is skipped (a message was lost), or the session changes;
 //   - tracking is false, alarm is true, or the type is "halt";
 //   - the message does not parse, or v is not 1.

@@ -9,8 +9,10 @@ import (
 
 // FromEstimate builds the guidance message for a tracker estimate of frame
 // frame. Tracking and Alarm come from the estimate (only Holding and
-// Coasting track); the capture time is e.T. Add floor values with
-// SetFloor when calibrated.
+// Coasting track); the capture time is e.T. Set CapturedAt to the frame's
+// wall-clock read time in live use (so that a late frame is withheld and
+// the receiver sees the latency), and add floor values with SetFloor when
+// calibrated.
 func FromEstimate(e guidance.Estimate, frame int) Message {
 	m := Message{
 		Type:       TypeGuidance,

@@ -56,6 +56,13 @@ type Message struct {
 	CaptureT time.Duration
 	// Sent is the sender's wall-clock time when the message was encoded.
 	Sent time.Time
+	// CapturedAt is the wall-clock time the frame was read from the
+	// camera (zero when unknown). It is not sent; the Sender turns it into
+	// LatencyMS.
+	CapturedAt time.Time
+	// LatencyMS is the time from capture to sending in milliseconds; nil
+	// when unknown. Filled in by the Sender.
+	LatencyMS *float64
 	// Tracking is true only when the offsets below are trusted and may be
 	// used to steer.
 	Tracking bool
@@ -142,6 +149,12 @@ func (m *Message) AppendJSON(dst []byte) ([]byte, error) {
 	b = strconv.AppendFloat(b, m.CaptureT.Seconds(), 'f', 6, 64)
 	b = append(b, `,"sent_unix_ns":`...)
 	b = strconv.AppendInt(b, m.Sent.UnixNano(), 10)
+	b = append(b, `,"latency_ms":`...)
+	if m.LatencyMS != nil && finite(*m.LatencyMS) {
+		b = strconv.AppendFloat(b, *m.LatencyMS, 'f', 1, 64)
+	} else {
+		b = append(b, "null"...)
+	}
 	b = append(b, `,"tracking":`...)
 	b = strconv.AppendBool(b, m.Tracking)
 	b = append(b, `,"alarm":`...)
@@ -200,6 +213,7 @@ type wire struct {
 	Frame           int      `json:"frame"`
 	CaptureS        float64  `json:"t_capture_s"`
 	SentUnixNano    int64    `json:"sent_unix_ns"`
+	LatencyMS       *float64 `json:"latency_ms"`
 	Tracking        *bool    `json:"tracking"`
 	Alarm           *bool    `json:"alarm"`
 	State           string   `json:"state"`
@@ -243,6 +257,7 @@ func Decode(data []byte) (Message, error) {
 		Frame:      w.Frame,
 		CaptureT:   time.Duration(math.Round(w.CaptureS * 1e9)),
 		Sent:       time.Unix(0, w.SentUnixNano),
+		LatencyMS:  w.LatencyMS,
 		Tracking:   *w.Tracking,
 		Alarm:      *w.Alarm,
 		State:      w.State,

@@ -17,8 +17,9 @@ const DefaultRegain = 3
 
 // Receiver follows a controller stream and says whether its guidance may be
 // used, for controller authors and tests. It declares guidance lost when
-// the last tracking message is older than the stale limit (by the
-// receiver's own clock), when a sequence number is skipped, when a message
+// the last tracking message's frame is older than the stale limit (its
+// age since arrival by the receiver's own clock, plus the sender's
+// latency_ms from capture to sending), when a sequence number is skipped, when a message
 // says tracking off or alarm on, or after a halt; after a loss it needs
 // Regain consecutive in-order tracking messages before trusting again.
 //
@@ -128,7 +129,14 @@ func (r *Receiver) Guidance(now time.Time) (Message, error) {
 	case r.lostWhy != "":
 		return Message{}, fmt.Errorf("%w: %s", ErrLost, r.lostWhy)
 	}
-	if age := now.Sub(r.lastAt); age > r.staleAfter() || age < 0 {
+	age := now.Sub(r.lastAt)
+	if age < 0 {
+		return Message{}, fmt.Errorf("%w: clock went backwards", ErrLost)
+	}
+	if r.last.LatencyMS != nil && *r.last.LatencyMS > 0 {
+		age += time.Duration(*r.last.LatencyMS * float64(time.Millisecond))
+	}
+	if age > r.staleAfter() {
 		return Message{}, fmt.Errorf("%w: last guidance %d ms old (limit %d ms)", ErrLost, age.Milliseconds(), r.staleAfter().Milliseconds())
 	}
 	return r.last, nil

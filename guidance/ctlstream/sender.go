@@ -102,9 +102,10 @@ func NewWriter(w io.Writer, opt Options) *Sender {
 func (s *Sender) Session() uint64 { return s.opt.Session }
 
 // Send sends one frame's estimate. The sender fills in Type (guidance),
-// Session, Seq, Sent and StaleAfter. The estimate goes out with Tracking
-// set only when m.Tracking is set, m.Alarm is not, and the gate (if any)
-// trusts m.Confidence; otherwise the offsets are withheld.
+// Session, Seq, Sent, StaleAfter and, when m.CapturedAt is set,
+// LatencyMS. The estimate goes out with Tracking set only when m.Tracking
+// is set, m.Alarm is not, the gate (if any) trusts m.Confidence, and the
+// frame is not older than StaleAfter; otherwise the offsets are withheld.
 //
 // If m holds a value that cannot be sent (a non-finite offset, a
 // confidence outside [0, 1]) Send still sends a message, with tracking off
@@ -127,6 +128,16 @@ func (s *Sender) Send(m Message) error {
 			m.Reason = "confidence not trusted"
 		}
 	}
+	m.LatencyMS = nil
+	if !m.CapturedAt.IsZero() {
+		lat := s.opt.Now().Sub(m.CapturedAt)
+		ms := float64(lat) / float64(time.Millisecond)
+		m.LatencyMS = &ms
+		if m.Tracking && lat > s.opt.StaleAfter {
+			m.Tracking = false
+			m.Reason = fmt.Sprintf("frame %d ms old when sent", lat.Milliseconds())
+		}
+	}
 	var bad error
 	if err := m.Validate(); err != nil {
 		bad = err
@@ -134,7 +145,7 @@ func (s *Sender) Send(m Message) error {
 			s.opt.Gate.Reset()
 		}
 		m = Message{Type: TypeGuidance, Frame: m.Frame, CaptureT: m.CaptureT, State: m.State,
-			Alarm: true, Reason: "invalid estimate withheld"}
+			LatencyMS: m.LatencyMS, Alarm: true, Reason: "invalid estimate withheld"}
 	}
 	if !m.Tracking {
 		m.OffsetPx, m.HeadingDeg = 0, 0

@@ -22,10 +22,6 @@ type Sink interface {
 	Close() error
 }
 
-// pacer is implemented by sinks whose Write blocks at the playback rate
-// (the speaker); while one works, the real-time loop needs no clock.
-type pacer interface{ Paced() bool }
-
 // ErrNoAlarmChannel means the operator asked for an alarm channel and none
 // is working: the fail-safe alarm can no longer be heard.
 var ErrNoAlarmChannel = errors.New("audio: no alarm channel left")
@@ -211,16 +207,28 @@ func (p *Player) Update(t time.Duration, c Cue) error {
 	return err
 }
 
+// Real-time pacing. A speaker's Write blocks at the card's rate, which
+// paces Run by itself; the Clock only keeps Run from racing ahead when no
+// sink blocks (a WAV file, ALSA's null device). The card may run a little
+// faster than the system clock, so the allowed lead grows by clockSlack
+// per second; when a blocking sink holds Run back, the clock is re-read so
+// Run never bursts to catch up.
+const (
+	leadBuffers = 4      // allowed lead over the clock, in buffers: what a card's queues hold
+	clockSlack  = 200e-6 // 200 ppm, more than a sound card's clock error (common practice: ±50 ppm crystals)
+)
+
 // Run renders in real time until ctx ends, the player is halted or the
 // last alarm channel fails with RequireAlarm (then it returns that
-// error). A working speaker paces the loop; without one the Clock does.
+// error). See leadBuffers and clockSlack for the pacing.
 func (p *Player) Run(ctx context.Context) error {
-	start := p.clock.Now()
-	startFrames := p.rendered
 	rate := float64(p.synth.Rate())
+	dur := func(frames int64) time.Duration { return time.Duration(float64(frames) / rate * float64(time.Second)) }
+	bufDur := dur(int64(p.frames))
+	anchor, anchorFrames := p.clock.Now(), p.rendered
 	for ctx.Err() == nil {
 		p.mu.Lock()
-		halted, paced := p.halted, p.pacedLocked()
+		halted := p.halted
 		p.mu.Unlock()
 		if halted {
 			return nil
@@ -228,27 +236,19 @@ func (p *Player) Run(ctx context.Context) error {
 		if err := p.render(p.frames); err != nil {
 			return err
 		}
-		if paced {
-			start, startFrames = p.clock.Now(), p.rendered
+		now := p.clock.Now()
+		elapsed := now.Sub(anchor)
+		lead := dur(p.rendered-anchorFrames) - elapsed
+		if lead < -bufDur {
+			anchor, anchorFrames = now, p.rendered
 			continue
 		}
-		// Stay one buffer ahead of the wall clock.
-		ahead := time.Duration(float64(p.rendered-startFrames)/rate*float64(time.Second)) -
-			p.clock.Now().Sub(start) - time.Duration(float64(p.frames)/rate*float64(time.Second))
-		if ahead > 0 {
-			p.clock.Sleep(ahead)
+		allowed := leadBuffers*bufDur + time.Duration(float64(elapsed)*clockSlack)
+		if lead > allowed {
+			p.clock.Sleep(lead - allowed)
 		}
 	}
 	return nil
-}
-
-func (p *Player) pacedLocked() bool {
-	for _, c := range p.chans {
-		if pc, ok := c.Sink.(pacer); ok && pc.Paced() {
-			return true
-		}
-	}
-	return false
 }
 
 // render makes n frames and writes them to every working channel,

@@ -234,9 +234,10 @@ func TestRunPacedByClock(t *testing.T) {
 	if err := p.Run(ctx); err != nil {
 		t.Fatal(err)
 	}
-	// One second of wall time, rendered one 20 ms buffer ahead.
+	// One second of clock time, rendered leadBuffers of 20 ms ahead plus
+	// the 200 ppm slack (0.2 ms).
 	got := len(rec.Samples()) / 2
-	if want := testRate + testRate/50; got != want {
+	if want := testRate + leadBuffers*testRate/50; got < want || got > want+testRate/50 {
 		t.Errorf("%d frames in 1 s of clock time, want %d", got, want)
 	}
 }
@@ -251,5 +252,36 @@ func TestRunStopsOnLostAlarmChannel(t *testing.T) {
 	}
 	if got := p.Channels(false); len(got) != 1 || got[0] != "audit" {
 		t.Errorf("channels left %v, want [audit]", got)
+	}
+}
+
+// slowSink advances the fake clock on every Write, like a card that takes
+// each 20 ms buffer in 30 ms.
+type slowSink struct {
+	audiotest.Recorder
+	clk *fakeClock
+}
+
+func (s *slowSink) Write(b []float32) error {
+	s.clk.Sleep(time.Duration(len(b)/2) * time.Second / testRate * 3 / 2)
+	return s.Recorder.Write(b)
+}
+
+func TestRunFollowsABlockingSink(t *testing.T) {
+	ctx, cancel := context.WithCancel(context.Background())
+	start := time.Unix(0, 0)
+	clk := &fakeClock{now: start, stop: start.Add(3 * time.Second), cancel: cancel}
+	sink := &slowSink{clk: clk}
+	p, _ := newTestPlayer(t, PlayerConfig{Clock: clk}, Channel{Name: "slow card", Sink: sink, Alarm: true})
+	if err := p.Run(ctx); err != nil {
+		t.Fatal(err)
+	}
+	// The sink alone sets the pace: 2 s of audio in 3 s, no burst to catch
+	// up with the clock, and no extra sleeping.
+	if got := p.Rendered(); got < 1990*time.Millisecond || got > 2010*time.Millisecond {
+		t.Errorf("rendered %v in 3 s at the slow sink's pace, want 2 s", got)
+	}
+	if want := 3 * time.Second; clk.slept > want+30*time.Millisecond {
+		t.Errorf("clock slept %v in total; only the sink should have", clk.slept)
 	}
 }

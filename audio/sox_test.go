@@ -190,7 +190,7 @@ func TestSoxCrossCheckAlarmOnset(t *testing.T) {
 	path := writeCues(t, []time.Duration{0, raise}, []Cue{{}, {Alarm: true}}, 2*time.Second, DefaultMapping())
 	onsets, _ := a.Onsets()
 	cut := (a.Rise/2 + 4*time.Millisecond).Seconds()
-	if got := soxRMS(t, path, 0, (raise + onsets[0]).Seconds()-cut); got > -80 {
+	if got := soxRMS(t, path, 0, (raise+onsets[0]).Seconds()-cut); got > -80 {
 		t.Errorf("before the alarm: sox RMS %.1f dB, want silence", got)
 	}
 	for i, o := range onsets[:5] {
@@ -200,7 +200,7 @@ func TestSoxCrossCheckAlarmOnset(t *testing.T) {
 			t.Errorf("alarm pulse %d [%.4f, %.4f] s: sox RMS %.1f dB, want loud", i, from, to, got)
 		}
 		if i+1 < len(onsets) {
-			gapFrom, gapTo := to+2*cut, (raise + onsets[i+1]).Seconds()-cut
+			gapFrom, gapTo := to+2*cut, (raise+onsets[i+1]).Seconds()-cut
 			if got := soxRMS(t, path, gapFrom, gapTo); got > -80 {
 				t.Errorf("after alarm pulse %d [%.4f, %.4f] s: sox RMS %.1f dB, want silence", i, gapFrom, gapTo, got)
 			}

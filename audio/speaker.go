@@ -30,7 +30,7 @@ type device interface {
 // Speaker plays through the sound card. Write queues samples and blocks
 // while more than one buffer waits, so it paces a real-time Player. Every
 // Write checks the device's error state, and a device that stops taking
-// samples for StallTimeout counts as lost; either way Write returns an
+// samples for the stall time (10 buffers, at least 250 ms) counts as lost; either way Write returns an
 // error wrapping ErrDeviceLost and the Speaker stays failed.
 type Speaker struct {
 	dev   device
@@ -156,13 +156,6 @@ func (s *Speaker) Read(p []byte) (int, error) {
 	default:
 	}
 	return n, nil
-}
-
-// Paced reports whether Write currently blocks at the playback rate.
-func (s *Speaker) Paced() bool {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	return s.err == nil && !s.halted && !s.closed
 }
 
 // Err returns the error that made the speaker fail, if any.

@@ -1,0 +1,108 @@
+//go:build linux && cgo
+
+package audio
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/rs/zerolog"
+)
+
+// The sound library allows one context per process, so each real-device
+// case runs in a child process of this test binary, with ALSA pointed at a
+// configuration of our own through ALSA_CONFIG_PATH.
+const childEnv = "HEWLINE_AUDIO_ALSA_CHILD"
+
+var alsaConfigs = map[string]string{
+	// ALSA's null plugin: takes samples and discards them, like a card.
+	"null": "pcm.!default { type null }\n",
+	// A card that does not exist.
+	"missing": "pcm.!default { type hw card 7 device 0 }\nctl.!default { type hw card 7 }\n",
+}
+
+func TestSpeakerALSA(t *testing.T) {
+	if mode := os.Getenv(childEnv); mode != "" {
+		speakerChild(t, mode)
+		return
+	}
+	for _, mode := range []string{"null", "missing"} {
+		t.Run(mode, func(t *testing.T) {
+			conf := filepath.Join(t.TempDir(), "asound.conf")
+			if err := os.WriteFile(conf, []byte(alsaConfigs[mode]), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			cmd := exec.Command(os.Args[0], "-test.run=^TestSpeakerALSA$", "-test.v", "-test.count=1")
+			cmd.Env = append(os.Environ(), childEnv+"="+mode, "ALSA_CONFIG_PATH="+conf)
+			out, err := cmd.CombinedOutput()
+			t.Logf("child (%s):\n%s", mode, out)
+			if err != nil || !strings.Contains(string(out), "CHILD OK") {
+				t.Fatalf("child %s failed: %v", mode, err)
+			}
+		})
+	}
+}
+
+func speakerChild(t *testing.T, mode string) {
+	s, err := NewSpeaker(testRate, 20*time.Millisecond)
+	switch mode {
+	case "missing":
+		if !errors.Is(err, ErrNoDevice) {
+			t.Fatalf("NewSpeaker on a missing card = %v, want ErrNoDevice", err)
+		}
+		// The context's failure is remembered: asking again fails alike.
+		if _, err2 := NewSpeaker(testRate, 20*time.Millisecond); !errors.Is(err2, ErrNoDevice) {
+			t.Fatalf("second NewSpeaker = %v, want ErrNoDevice", err2)
+		}
+		fmt.Println("CHILD OK:", err)
+	case "null":
+		if err != nil {
+			t.Fatalf("NewSpeaker on the null device: %v", err)
+		}
+		if _, err := NewSpeaker(testRate, 20*time.Millisecond); err == nil {
+			t.Fatal("a second speaker opened while the first is open")
+		}
+		l := zerolog.New(os.Stderr)
+		p, err := NewPlayer(newTestSynth(t, DefaultMapping(), DefaultAlarm()),
+			PlayerConfig{RequireAlarm: true, Log: &l}, Channel{Name: "speaker", Sink: s, Alarm: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		p.Set(Cue{Alarm: true})
+		ctx, cancel := context.WithTimeout(context.Background(), 400*time.Millisecond)
+		defer cancel()
+		start := time.Now()
+		if err := p.Run(ctx); err != nil {
+			t.Fatalf("Run on the null device: %v", err)
+		}
+		wall := time.Since(start)
+		if err := s.Err(); err != nil {
+			t.Fatalf("speaker error after playing: %v", err)
+		}
+		if got := p.Channels(true); len(got) != 1 {
+			t.Fatalf("alarm channels %v after playing", got)
+		}
+		// The null device takes samples without blocking, so the clock
+		// paces: about the wall time plus leadBuffers buffers.
+		if d := p.Rendered() - wall; d < -50*time.Millisecond || d > 150*time.Millisecond {
+			t.Fatalf("%v rendered in %v of wall time", p.Rendered(), wall)
+		}
+		if err := p.Close(); err != nil {
+			t.Fatal(err)
+		}
+		// Closed, the device slot is free again.
+		s2, err := NewSpeaker(testRate, 20*time.Millisecond)
+		if err != nil {
+			t.Fatalf("reopen after Close: %v", err)
+		}
+		s2.Close()
+		fmt.Printf("CHILD OK: rendered %v in %v of wall time\n", p.Rendered(), wall)
+	}
+}

@@ -130,5 +130,7 @@ func replayFlags(fs *flag.FlagSet) *replayOptions {
 		o.vision.Polarity = p
 		return err
 	})
+	fs.StringVar(&o.wav, "wav", "", "write the operator's cue and alarm sound, following frame times, to the WAV `FILE`")
+	fs.StringVar(&o.stream, "stream", "", "send the controller stream (NDJSON over UDP) to `HOST:PORT` (loopback or an explicit address; broadcast refused)")
 	return o
 }

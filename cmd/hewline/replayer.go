@@ -13,10 +13,12 @@ import (
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 
+	"github.com/hewline/hewline/audio"
 	"github.com/hewline/hewline/capture"
 	"github.com/hewline/hewline/capture/truth"
 	"github.com/hewline/hewline/cmd/internal/pipeline"
 	"github.com/hewline/hewline/guidance"
+	"github.com/hewline/hewline/guidance/ctlstream"
 	"github.com/hewline/hewline/guidance/score"
 	"github.com/hewline/hewline/guidance/tracklog"
 	"github.com/hewline/hewline/vision"
@@ -29,6 +31,11 @@ type replayOptions struct {
 	reacquire time.Duration
 	progress  bool
 	vision    vision.Config
+	// wav, when set, receives the operator's cue and alarm sound,
+	// following the frame timestamps.
+	wav string
+	// stream is a UDP address for the controller stream ("" = none).
+	stream string
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {
@@ -107,6 +114,26 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 		defer vs.Close()
 		sinks = append(sinks, vs)
 	}
+	var aud *pipeline.AudioSink
+	if o.wav != "" {
+		p, err := newWAVPlayer(o.wav)
+		if err != nil {
+			return nil, err
+		}
+		defer p.Close()
+		aud = &pipeline.AudioSink{Player: p}
+		sinks = append(sinks, aud)
+	}
+	var ss *pipeline.StreamSink
+	if o.stream != "" {
+		snd, err := ctlstream.NewUDP(o.stream, ctlstream.Options{})
+		if err != nil {
+			return nil, err
+		}
+		defer snd.Close()
+		ss = &pipeline.StreamSink{Sender: snd}
+		sinks = append(sinks, ss)
+	}
 	var bar *progressbar.ProgressBar
 	if o.progress {
 		bar = newBar(info, filepath.Base(clip), stderr)
@@ -126,7 +153,23 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 		end = "error: " + runErr.Error()
 	}
 	took := time.Since(start)
-	if err := lw.Close(end, map[string]float64{"drops": float64(st.Drops), "size_changes": float64(st.SizeChanges), "wall_s": took.Seconds()}); err != nil && runErr == nil {
+	extra := map[string]float64{"drops": float64(st.Drops), "size_changes": float64(st.SizeChanges), "wall_s": took.Seconds()}
+	if aud != nil {
+		tail := time.Second / 30
+		if info.FPS > 0 {
+			tail = time.Duration(float64(time.Second) / info.FPS)
+		}
+		if err := aud.Finish(tail); err != nil && runErr == nil {
+			runErr = err
+		}
+		if err := aud.Player.Close(); err != nil && runErr == nil {
+			runErr = err
+		}
+	}
+	if ss != nil {
+		extra["stream_refused"] = float64(ss.Refused)
+	}
+	if err := lw.Close(end, extra); err != nil && runErr == nil {
 		runErr = err
 	}
 	if vs != nil {
@@ -155,6 +198,27 @@ func newBar(info capture.SourceInfo, name string, w io.Writer) *progressbar.Prog
 func isTerminal(w io.Writer) bool {
 	f, ok := w.(*os.File)
 	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+// newWAVPlayer makes an audio player whose one channel is a WAV file, a
+// record of what the operator would have heard. In a replay nobody is
+// listening, so the file stands in for the alarm channel.
+func newWAVPlayer(path string) (*audio.Player, error) {
+	const rate = 48000
+	syn, err := audio.NewSynth(rate, audio.DefaultMapping(), audio.DefaultAlarm())
+	if err != nil {
+		return nil, err
+	}
+	w, err := audio.NewWAVSink(path, rate)
+	if err != nil {
+		return nil, err
+	}
+	p, err := audio.NewPlayer(syn, audio.PlayerConfig{}, audio.Channel{Name: path, Sink: w, Alarm: true})
+	if err != nil {
+		w.Close()
+		return nil, err
+	}
+	return p, nil
 }
 
 // scoreClip scores a replayed clip's log against a truth file.

@@ -1,0 +1,102 @@
+package pipeline
+
+import (
+	"errors"
+	"math"
+	"time"
+
+	"gocv.io/x/gocv"
+
+	"github.com/hewline/hewline/audio"
+	"github.com/hewline/hewline/guidance/ctlstream"
+)
+
+// AudioSink drives an audio.Player from each frame's cue decision. In
+// replay it renders the sound up to each frame's time first (Update), so a
+// WAV file's timing follows the frame timestamps sample for sample; in live
+// use (Live true) the player renders in real time on its own goroutine and
+// the sink only hands it the cue.
+type AudioSink struct {
+	Player *audio.Player
+	// FullScalePx is the offset (px) that maps to the full cue (±1); the
+	// heading's full scale is FullScaleDeg. Defaults: a quarter of the
+	// frame width, 20°.
+	FullScalePx, FullScaleDeg float64
+	Live                      bool
+	last                      time.Duration
+}
+
+// Cue converts a frame's decision to the audio cue.
+func (s *AudioSink) Cue(r *Result) audio.Cue {
+	fs := s.FullScalePx
+	if fs <= 0 {
+		fs = float64(r.Info.Size.X) / 4
+	}
+	fd := s.FullScaleDeg
+	if fd <= 0 {
+		fd = 20
+	}
+	c := audio.Cue{Alarm: r.Cue.Alarm, Guide: r.Cue.Guide}
+	if c.Guide {
+		c.Offset = clamp1(r.Cue.Offset / fs)
+		c.Heading = clamp1(r.Cue.Heading / fd)
+	}
+	return c
+}
+
+// Frame implements Sink. It returns the player's error when the last alarm
+// channel has failed and one was required.
+func (s *AudioSink) Frame(r *Result, _ gocv.Mat) error {
+	c := s.Cue(r)
+	if s.Live {
+		s.Player.Set(c)
+		return s.Player.Err()
+	}
+	s.last = r.Info.T
+	return s.Player.Update(r.Info.T, c)
+}
+
+// Finish renders the last frame's cue for one more frame interval (replay).
+func (s *AudioSink) Finish(tail time.Duration) error {
+	if s.Live {
+		return nil
+	}
+	return s.Player.Advance(s.last + tail)
+}
+
+func clamp1(x float64) float64 {
+	if math.IsNaN(x) {
+		return 0
+	}
+	return math.Max(-1, math.Min(1, x))
+}
+
+// StreamSink sends one controller-stream message per frame. Untrusted
+// estimates go out without offsets (ctlstream.FromEstimate), and floor
+// values are added only while tracking.
+type StreamSink struct {
+	Sender *ctlstream.Sender
+	// AheadMM and LookAheadMM feed the pure-pursuit hint when calibrated.
+	AheadMM, LookAheadMM float64
+	// Refused counts sends after which the receiver was found not to be
+	// listening; the run goes on (the fail-safe is the receiver's duty
+	// when it hears nothing) and the count goes into the summary.
+	Refused int
+}
+
+// Frame implements Sink.
+func (s *StreamSink) Frame(r *Result, _ gocv.Mat) error {
+	m := ctlstream.FromEstimate(r.Est, r.Info.Index)
+	m.CapturedAt = r.Captured
+	if r.Floor != nil {
+		if err := m.SetFloor(ctlstream.Floor{OffsetMM: r.Floor.OffsetMM, HeadingDeg: r.Floor.HeadingDeg, AheadMM: s.AheadMM, LookAheadMM: s.LookAheadMM}); err != nil {
+			return err
+		}
+	}
+	err := s.Sender.Send(m)
+	if errors.Is(err, ctlstream.ErrRefused) {
+		s.Refused++
+		return nil
+	}
+	return err
+}

@@ -132,5 +132,6 @@ func replayFlags(fs *flag.FlagSet) *replayOptions {
 	})
 	fs.StringVar(&o.wav, "wav", "", "write the operator's cue and alarm sound, following frame times, to the WAV `FILE`")
 	fs.StringVar(&o.stream, "stream", "", "send the controller stream (NDJSON over UDP) to `HOST:PORT` (loopback or an explicit address; broadcast refused)")
+	fs.StringVar(&o.calib, "calib", "", "calibration `FILE` (hewline calib): adds offset_mm, heading_floor_deg and width_mm while tracking")
 	return o
 }

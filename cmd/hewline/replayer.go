@@ -14,6 +14,7 @@ import (
 	"golang.org/x/term"
 
 	"github.com/hewline/hewline/audio"
+	"github.com/hewline/hewline/calib"
 	"github.com/hewline/hewline/capture"
 	"github.com/hewline/hewline/capture/truth"
 	"github.com/hewline/hewline/cmd/internal/pipeline"
@@ -36,6 +37,8 @@ type replayOptions struct {
 	wav string
 	// stream is a UDP address for the controller stream ("" = none).
 	stream string
+	// calib is a calibration file for floor values ("" = none).
+	calib string
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {
@@ -85,6 +88,16 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 		return nil, err
 	}
 
+	var floor pipeline.FloorMapper
+	calibInfo := "none"
+	if o.calib != "" {
+		fm, err := loadFloor(o.calib, info.Size.X, info.Size.Y)
+		if err != nil {
+			return nil, err
+		}
+		floor, calibInfo = fm, o.calib
+	}
+
 	if err := os.MkdirAll(filepath.Dir(logPath), 0o755); err != nil {
 		return nil, err
 	}
@@ -102,6 +115,7 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 			"reacquire_for_s":   tcfg.ReacquireFor.Seconds(),
 			"tracker":           tcfg.String(),
 			"detector":          o.vision,
+			"calibration":       calibInfo,
 		},
 	})
 	if err != nil {
@@ -140,7 +154,7 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 		sinks = append(sinks, barSink{bar})
 	}
 	start := time.Now()
-	st, runErr := pipeline.Run(ctx, src, pipeline.Config{Detector: det, Tracker: tr, Sinks: sinks})
+	st, runErr := pipeline.Run(ctx, src, pipeline.Config{Detector: det, Tracker: tr, Floor: floor, Sinks: sinks})
 	if bar != nil {
 		bar.Finish()
 		fmt.Fprintln(stderr)
@@ -198,6 +212,41 @@ func newBar(info capture.SourceInfo, name string, w io.Writer) *progressbar.Prog
 func isTerminal(w io.Writer) bool {
 	f, ok := w.(*os.File)
 	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+// floorMapper measures detections on the floor through a calibration.
+type floorMapper struct {
+	m   *calib.Mapper
+	pts []calib.Pt
+}
+
+// loadFloor loads a calibration file and checks it against the frame size.
+func loadFloor(path string, w, h int) (*floorMapper, error) {
+	f, err := calib.Load(path)
+	if err != nil {
+		return nil, err
+	}
+	if err := f.CheckFrameSize(w, h); err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	m, err := calib.NewMapper(f)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	return &floorMapper{m: m}, nil
+}
+
+// Floor implements pipeline.FloorMapper.
+func (f *floorMapper) Floor(d vision.Detection) (pipeline.FloorValues, bool) {
+	f.pts = f.pts[:0]
+	for _, p := range d.Points {
+		f.pts = append(f.pts, calib.Pt{X: p.X, Y: p.Y})
+	}
+	fm, err := f.m.Measure(f.pts, d.RefRow, d.WidthPx, 0)
+	if err != nil || !fm.OK {
+		return pipeline.FloorValues{}, false
+	}
+	return pipeline.FloorValues{OffsetMM: float64(fm.OffsetMM), HeadingDeg: float64(fm.HeadingDeg), WidthMM: float64(fm.WidthMM)}, true
 }
 
 // newWAVPlayer makes an audio player whose one channel is a WAV file, a

@@ -45,9 +45,13 @@
 // (steer right); heading positive = the line's far end leans right;
 // curvature positive = turn right.
 //
-// Example (tracking, uncalibrated):
+// Example (tracking, uncalibrated), then a heartbeat after frames stopped:
 //
-//	{"v":1,"type":"guidance","session":77,"seq":12,"frame":11,"t_capture_s":0.366667,"sent_unix_ns":1764650000000000000,"latency_ms":41.0,"tracking":true,"alarm":false,"state":"tracking","offset_px":-14.2500,"offset_mm":null,"heading_deg":3.1000,"heading_floor_deg":null,"confidence":0.9100,"curvature_per_m":null,"stale_after_ms":300,"reason":""}
+//	{"v":1,"type":"guidance","session":77,"seq":12,"frame":11,"t_capture_s":0.366667,"sent_unix_ns":1764650000000000000,"latency_ms":41.0,"tracking":true,"alarm":false,"state":"holding","offset_px":-14.2500,"offset_mm":null,"heading_deg":3.1000,"heading_floor_deg":null,"confidence":0.9100,"curvature_per_m":null,"stale_after_ms":300,"reason":""}
+//	{"v":1,"type":"heartbeat","session":77,"seq":13,"frame":11,"t_capture_s":0.366667,"sent_unix_ns":1764650000120000000,"latency_ms":null,"tracking":false,"alarm":false,"state":"no-frame","offset_px":null,"offset_mm":null,"heading_deg":null,"heading_floor_deg":null,"confidence":0.0000,"curvature_per_m":null,"stale_after_ms":300,"reason":"no frame for 120 ms"}
+//
+// testdata/stream.ndjson holds a longer recorded sequence (start, gating,
+// a loss, heartbeats, halt) for testing a receiver.
 //
 // The curvature hint is pure pursuit (Coulter, "Implementation of the Pure
 // Pursuit Path Tracking Algorithm", CMU-RI-TR-92-01, 1992): for a goal point

@@ -172,7 +172,7 @@ func (m *Message) AppendJSON(dst []byte) ([]byte, error) {
 	b = append(b, `,"confidence":`...)
 	b = strconv.AppendFloat(b, m.Confidence, 'f', 4, 64)
 	b = append(b, `,"curvature_per_m":`...)
-	b = appendMeasure(b, m.Tracking, m.CurvaturePerM)
+	b = appendMeasureN(b, m.Tracking, m.CurvaturePerM, 6)
 	b = append(b, `,"stale_after_ms":`...)
 	b = strconv.AppendInt(b, m.StaleAfter.Milliseconds(), 10)
 	b = append(b, `,"reason":`...)
@@ -183,10 +183,15 @@ func (m *Message) AppendJSON(dst []byte) ([]byte, error) {
 
 // appendMeasure writes a measurement, or null when not tracking or absent.
 func appendMeasure(b []byte, tracking bool, p *float64) []byte {
+	return appendMeasureN(b, tracking, p, 4)
+}
+
+// appendMeasureN is appendMeasure with digits decimals.
+func appendMeasureN(b []byte, tracking bool, p *float64, digits int) []byte {
 	if !tracking || p == nil {
 		return append(b, "null"...)
 	}
-	return strconv.AppendFloat(b, *p, 'f', 4, 64)
+	return strconv.AppendFloat(b, *p, 'f', digits, 64)
 }
 
 // appendString writes s as a JSON string. Plain ASCII is copied directly;

@@ -132,7 +132,7 @@ func (s *Speaker) fail(err error) error {
 	s.mu.Lock()
 	defer s.mu.Unlock()
 	if s.err == nil {
-		s.err = fmt.Errorf("audio: speaker: %w", err)
+		s.err = err
 	}
 	return s.err
 }

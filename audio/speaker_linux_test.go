@@ -3,6 +3,7 @@
 package audio
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"fmt"
@@ -13,6 +14,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/hewline/hewline/audio/audiotest"
 	"github.com/rs/zerolog"
 )
 
@@ -24,6 +26,9 @@ const childEnv = "HEWLINE_AUDIO_ALSA_CHILD"
 var alsaConfigs = map[string]string{
 	// ALSA's null plugin: takes samples and discards them, like a card.
 	"null": "pcm.!default { type null }\n",
+	// A device that fails mid-run: ALSA's file plugin writing to /dev/full
+	// fails every write after its buffer fills (ENOSPC → EIO).
+	"lost": "pcm.!default { type file slave.pcm { type null } file \"/dev/full\" format \"raw\" }\n",
 	// A card that does not exist.
 	"missing": "pcm.!default { type hw card 7 device 0 }\nctl.!default { type hw card 7 }\n",
 }
@@ -33,7 +38,7 @@ func TestSpeakerALSA(t *testing.T) {
 		speakerChild(t, mode)
 		return
 	}
-	for _, mode := range []string{"null", "missing"} {
+	for _, mode := range []string{"null", "missing", "lost"} {
 		t.Run(mode, func(t *testing.T) {
 			conf := filepath.Join(t.TempDir(), "asound.conf")
 			if err := os.WriteFile(conf, []byte(alsaConfigs[mode]), 0o644); err != nil {
@@ -60,6 +65,34 @@ func speakerChild(t *testing.T, mode string) {
 		// The context's failure is remembered: asking again fails alike.
 		if _, err2 := NewSpeaker(testRate, 20*time.Millisecond); !errors.Is(err2, ErrNoDevice) {
 			t.Fatalf("second NewSpeaker = %v, want ErrNoDevice", err2)
+		}
+		fmt.Println("CHILD OK:", err)
+	case "lost":
+		if err != nil {
+			t.Fatalf("NewSpeaker: %v", err)
+		}
+		var logs bytes.Buffer
+		l := zerolog.New(&logs)
+		audit := &audiotest.Recorder{}
+		p, err := NewPlayer(newTestSynth(t, DefaultMapping(), DefaultAlarm()),
+			PlayerConfig{RequireAlarm: true, Log: &l},
+			Channel{Name: "speaker", Sink: s, Alarm: true}, Channel{Name: "audit", Sink: audit})
+		if err != nil {
+			t.Fatal(err)
+		}
+		p.Set(Cue{Alarm: true})
+		ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+		defer cancel()
+		err = p.Run(ctx)
+		var nac *NoAlarmChannelError
+		if !errors.As(err, &nac) || !errors.Is(err, ErrDeviceLost) || nac.ExitCode() != 3 {
+			t.Fatalf("Run with the device lost = %v, want ErrNoAlarmChannel caused by ErrDeviceLost", err)
+		}
+		if !strings.Contains(logs.String(), "NO ALARM CHANNEL LEFT") {
+			t.Fatalf("log lacks the loss: %s", logs.String())
+		}
+		if len(audit.Samples()) == 0 {
+			t.Fatal("the audit channel got nothing before the loss")
 		}
 		fmt.Println("CHILD OK:", err)
 	case "null":

@@ -8,8 +8,12 @@ import (
 	"periph.io/x/host/v3"
 )
 
-// OpenGPIO opens two output pins by their periph.io names (for example
-// "GPIO17", or a character-device line name) and drives them low.
+// OpenGPIO opens two output pins by their periph.io names and drives them
+// low. host.Init loads periph's gpioioctl driver, which registers every
+// line of every /dev/gpiochipN (the Linux GPIO character device) under its
+// line name (for example "GPIO17" on a board whose device tree names it
+// so); board drivers may add aliases. Pins that are not found give
+// ErrPinNotFound.
 func OpenGPIO(leftPin, rightPin string, pwm bool) (*GPIO, error) {
 	if _, err := host.Init(); err != nil {
 		return nil, fmt.Errorf("haptic: GPIO init: %w", err)

@@ -37,29 +37,33 @@ const (
 // Mapping describes how a Cue's error becomes the guidance sound. See the
 // package documentation for the formulas.
 type Mapping struct {
-	Mode Mode
+	Mode Mode `yaml:"mode"`
 	// DeadBand is the half-width of the quiet zone around centre, in
 	// normalised error (0 ≤ DeadBand < 1).
-	DeadBand float64
+	DeadBand float64 `yaml:"dead_band"`
 	// CentreGain is the linear gain (0..1) of the cue inside the dead band,
 	// relative to MinLevelDBFS. 0 means silent on target.
-	CentreGain float64
+	CentreGain float64 `yaml:"centre_gain"`
 	// MinLevelDBFS is the level just past the dead band, LevelDBFS at full
 	// error (peak, dB relative to full scale, ≤ 0).
-	MinLevelDBFS, LevelDBFS float64
+	MinLevelDBFS float64 `yaml:"min_level_dbfs"`
+	LevelDBFS    float64 `yaml:"level_dbfs"`
 	// PanDBPerUnit is the level difference between the two channels per
 	// unit of |error|, in dB (≥ 0).
-	PanDBPerUnit float64
+	PanDBPerUnit float64 `yaml:"pan_db_per_unit"`
 	// MinPitchHz and MaxPitchHz bound the cue's pitch.
-	MinPitchHz, MaxPitchHz float64
+	MinPitchHz float64 `yaml:"min_pitch_hz"`
+	MaxPitchHz float64 `yaml:"max_pitch_hz"`
 	// MinPulseHz and MaxPulseHz bound the pulse rate (pulses per second) in
 	// ModePulse; PulseDuty is the on fraction of each pulse period.
-	MinPulseHz, MaxPulseHz, PulseDuty float64
+	MinPulseHz float64 `yaml:"min_pulse_hz"`
+	MaxPulseHz float64 `yaml:"max_pulse_hz"`
+	PulseDuty  float64 `yaml:"pulse_duty"`
 	// HeadingWeight blends the heading into the error (0 = offset only).
-	HeadingWeight float64
+	HeadingWeight float64 `yaml:"heading_weight"`
 	// Ramp is the glide time of level, balance, pitch and pulse edges,
 	// which keeps the sound free of clicks.
-	Ramp time.Duration
+	Ramp time.Duration `yaml:"ramp"`
 }
 
 // DefaultMapping is the tone mode mapping used unless configured otherwise:
@@ -186,21 +190,25 @@ func gainToDB(g float64) float64 {
 type AlarmPattern struct {
 	// FundamentalHz is the lowest component; component k (1-based) sits at
 	// k·FundamentalHz with linear amplitude Harmonics[k−1].
-	FundamentalHz float64
-	Harmonics     []float64
+	FundamentalHz float64   `yaml:"fundamental_hz"`
+	Harmonics     []float64 `yaml:"harmonics"`
 	// Pulse is a pulse's duration between its half-amplitude points, Rise
 	// its rise (and fall) time, Spacing the gap between the half-amplitude
 	// points of two pulses in a group.
-	Pulse, Rise, Spacing time.Duration
+	Pulse   time.Duration `yaml:"pulse"`
+	Rise    time.Duration `yaml:"rise"`
+	Spacing time.Duration `yaml:"spacing"`
 	// Groups lists how many pulses each group of a burst has; GroupGap
 	// replaces Spacing between groups and BurstGap after the last pulse of
 	// a burst, before the burst repeats.
-	Groups             []int
-	GroupGap, BurstGap time.Duration
+	Groups   []int         `yaml:"groups"`
+	GroupGap time.Duration `yaml:"group_gap"`
+	BurstGap time.Duration `yaml:"burst_gap"`
 	// LevelDBFS is the peak level of the summed components (≤ 0).
-	LevelDBFS float64
+	LevelDBFS float64 `yaml:"level_dbfs"`
 	// BandLowHz and BandHighHz are the band every component must lie in.
-	BandLowHz, BandHighHz float64
+	BandLowHz  float64 `yaml:"band_low_hz"`
+	BandHighHz float64 `yaml:"band_high_hz"`
 }
 
 // DefaultAlarm is the fail-safe alarm: components at 510, 1020, 1530 and

@@ -5,6 +5,8 @@ import (
 	"math"
 	"testing"
 	"time"
+
+	"gopkg.in/yaml.v3"
 )
 
 // Tolerances from the issue, grounded in REFERENCES.md "Alarms and cues":
@@ -375,5 +377,26 @@ func TestValidate(t *testing.T) {
 	}
 	if _, err := NewSynth(1000, DefaultMapping(), DefaultAlarm()); !errors.Is(err, ErrBadConfig) {
 		t.Errorf("rate 1000 accepted: %v", err)
+	}
+}
+
+func TestMappingFromYAML(t *testing.T) {
+	m := DefaultMapping()
+	doc := "mode: pulse\ndead_band: 0.1\nramp: 8ms\nmax_pulse_hz: 6\n"
+	if err := yaml.Unmarshal([]byte(doc), &m); err != nil {
+		t.Fatal(err)
+	}
+	if m.Mode != ModePulse || m.DeadBand != 0.1 || m.Ramp != 8*time.Millisecond || m.MaxPulseHz != 6 || m.MinPitchHz != 440 {
+		t.Errorf("decoded %+v", m)
+	}
+	if err := m.Validate(); err != nil {
+		t.Error(err)
+	}
+	a := DefaultAlarm()
+	if err := yaml.Unmarshal([]byte("level_dbfs: -6\nburst_gap: 2s\n"), &a); err != nil {
+		t.Fatal(err)
+	}
+	if a.LevelDBFS != -6 || a.BurstGap != 2*time.Second || a.Validate() != nil {
+		t.Errorf("decoded %+v", a)
 	}
 }

@@ -32,6 +32,12 @@ type device interface {
 // Write checks the device's error state, and a device that stops taking
 // samples for the stall time (10 buffers, at least 250 ms) counts as lost; either way Write returns an
 // error wrapping ErrDeviceLost and the Speaker stays failed.
+//
+// Between a sample's rendering and the card sit this queue (one to two
+// buffers), the sound library's player buffer (one buffer) and ALSA's
+// device buffer (about one buffer): some 60–80 ms at the default 20 ms.
+// That figure is worked out, not measured: the build machines have no
+// sound card.
 type Speaker struct {
 	dev   device
 	stall time.Duration

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"sync"
 	"time"
 
 	"gocv.io/x/gocv"
@@ -46,6 +47,9 @@ type Result struct {
 	// Captured is the wall time the frame was read (live), Decided the
 	// time its estimate was ready.
 	Captured, Decided time.Time
+	// Tick marks a watchdog result: no frame, no image, no detection;
+	// Info is the last frame's.
+	Tick bool
 }
 
 // FloorValues are the calibrated measurements of one frame.
@@ -64,8 +68,20 @@ type Config struct {
 	Tracker  *guidance.Tracker
 	Floor    FloorMapper
 	Sinks    []Sink
-	// Live drops stale frames instead of processing every frame.
+	// Live drops stale frames instead of processing every frame, and
+	// times the tracker by the clock (Now) rather than by frame
+	// timestamps, so that frames and watchdog ticks share one time base.
 	Live bool
+	// Watchdog (live only) is how often the tracker is ticked when no
+	// frame arrives, so that a stalled source raises the fail-safe on
+	// time; each tick goes to the sinks as a Result with Tick set and no
+	// image. 0 turns it off.
+	Watchdog time.Duration
+	// Transient (live only) says whether a source error is one to ride
+	// out (a camera stall or loss being reopened): the tracker is faulted
+	// at once with the error as the reason and reading goes on. Other
+	// errors end the run.
+	Transient func(error) bool
 	// Now gives wall time for the latency fields (default time.Now).
 	Now func() time.Time
 }
@@ -76,6 +92,10 @@ type Stats struct {
 	Drops  int // frames dropped in live mode
 	// SizeChanges counts frames whose size differed from the frame before.
 	SizeChanges int
+	// Faults counts transient source errors ridden out (live).
+	Faults int
+	// Ticks counts watchdog results sent to the sinks.
+	Ticks int
 }
 
 type item struct {
@@ -113,7 +133,35 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 	var srcErr error
 	frames := make(chan item, 1)
 	results := make(chan item, 1)
+	ticks := make(chan Result, 1)
+	tk := &trackerClock{tr: cfg.Tracker, live: cfg.Live, now: now, start: now()}
 	g, gctx := errgroup.WithContext(ctx)
+	detectDone := make(chan struct{})
+
+	// Watchdog (live): tick the tracker while no frame comes.
+	if cfg.Live && cfg.Watchdog > 0 {
+		g.Go(func() error {
+			t := time.NewTicker(cfg.Watchdog)
+			defer t.Stop()
+			for {
+				select {
+				case <-gctx.Done():
+					return nil
+				case <-detectDone:
+					return nil
+				case <-t.C:
+				}
+				r, ok := tk.tick(cfg.Watchdog)
+				if !ok {
+					continue
+				}
+				select {
+				case ticks <- r:
+				default: // the sinks still have the previous tick: skip
+				}
+			}
+		})
+	}
 
 	// Stage 1: read frames.
 	g.Go(func() error {
@@ -126,6 +174,12 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 				return nil
 			}
 			fi, err := src.Read(m)
+			if err != nil && cfg.Live && cfg.Transient != nil && !errors.Is(err, io.EOF) && cfg.Transient(err) {
+				free <- m
+				st.Faults++
+				tk.fault(err.Error())
+				continue
+			}
 			if err != nil {
 				free <- m
 				if !errors.Is(err, io.EOF) {
@@ -154,6 +208,7 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 
 	// Stage 2: detect and track.
 	g.Go(func() error {
+		defer close(detectDone)
 		defer close(results)
 		var last capture.FrameInfo
 		first := true
@@ -161,15 +216,12 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 			r := &it.res
 			if !first && r.Info.Size != last.Size {
 				st.SizeChanges++
-				cfg.Tracker.Fault(r.Info.T, fmt.Sprintf("frame size changed from %dx%d to %dx%d", last.Size.X, last.Size.Y, r.Info.Size.X, r.Info.Size.Y))
+				tk.fault(fmt.Sprintf("frame size changed from %dx%d to %dx%d", last.Size.X, last.Size.Y, r.Info.Size.X, r.Info.Size.Y))
 			}
 			first, last = false, r.Info
-			var hint vision.Hint
-			if off, head, so, sh, ok := cfg.Tracker.Predict(r.Info.T); ok {
-				hint = vision.Hint{Valid: true, OffsetPx: off, HeadingDeg: head, OffsetSigma: so, HeadingSigma: sh}
-			}
+			hint := tk.hint(r)
 			r.Det = cfg.Detector.Detect(*it.mat, hint)
-			r.Est = cfg.Tracker.Update(r.Info.T, guidance.Measurement{
+			r.Est = tk.update(r, guidance.Measurement{
 				Valid: r.Det.Found, OffsetPx: r.Det.OffsetPx, HeadingDeg: r.Det.HeadingDeg, Confidence: r.Det.Confidence,
 			})
 			r.Cue = guidance.Decide(r.Est)
@@ -192,18 +244,33 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 
 	// Stage 3: outputs.
 	g.Go(func() error {
-		for it := range results {
-			for _, s := range cfg.Sinks {
-				if err := s.Frame(&it.res, *it.mat); err != nil {
-					free <- it.mat
-					drain(results, free)
-					return err
+		empty := gocv.NewMat()
+		defer empty.Close()
+		for {
+			select {
+			case r := <-ticks:
+				st.Ticks++
+				for _, s := range cfg.Sinks {
+					if err := s.Frame(&r, empty); err != nil {
+						drain(results, free)
+						return err
+					}
 				}
+			case it, ok := <-results:
+				if !ok {
+					return nil
+				}
+				for _, s := range cfg.Sinks {
+					if err := s.Frame(&it.res, *it.mat); err != nil {
+						free <- it.mat
+						drain(results, free)
+						return err
+					}
+				}
+				st.Frames++
+				free <- it.mat
 			}
-			st.Frames++
-			free <- it.mat
 		}
-		return nil
 	})
 
 	err := g.Wait()
@@ -221,4 +288,68 @@ func drain(ch <-chan item, free chan<- *gocv.Mat) {
 	for it := range ch {
 		free <- it.mat
 	}
+}
+
+// trackerClock serialises the tracker between the frame stage and the
+// watchdog, and gives it its time: frame timestamps in replay, the clock
+// in live mode.
+type trackerClock struct {
+	mu        sync.Mutex
+	tr        *guidance.Tracker
+	live      bool
+	now       func() time.Time
+	start     time.Time
+	lastFrame time.Time
+	last      Result
+}
+
+func (c *trackerClock) at(r *Result) time.Duration {
+	if c.live {
+		return c.now().Sub(c.start)
+	}
+	return r.Info.T
+}
+
+func (c *trackerClock) hint(r *Result) vision.Hint {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if off, head, so, sh, ok := c.tr.Predict(c.at(r)); ok {
+		return vision.Hint{Valid: true, OffsetPx: off, HeadingDeg: head, OffsetSigma: so, HeadingSigma: sh}
+	}
+	return vision.Hint{}
+}
+
+func (c *trackerClock) update(r *Result, m guidance.Measurement) guidance.Estimate {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	e := c.tr.Update(c.at(r), m)
+	c.lastFrame = c.now()
+	c.last = Result{Info: r.Info, Tick: true}
+	return e
+}
+
+func (c *trackerClock) fault(reason string) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	t := c.last.Info.T
+	if c.live {
+		t = c.now().Sub(c.start)
+	}
+	c.tr.Fault(t, reason)
+}
+
+// tick ticks the tracker when no frame came for one watchdog period and
+// returns the result for the sinks.
+func (c *trackerClock) tick(period time.Duration) (Result, bool) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	now := c.now()
+	if !c.lastFrame.IsZero() && now.Sub(c.lastFrame) < period {
+		return Result{}, false
+	}
+	r := c.last
+	r.Est = c.tr.Tick(now.Sub(c.start))
+	r.Cue = guidance.Decide(r.Est)
+	r.Captured, r.Decided = time.Time{}, now
+	return r, true
 }

@@ -18,6 +18,9 @@ type LogSink struct {
 
 // Frame implements Sink.
 func (s *LogSink) Frame(r *Result, _ gocv.Mat) error {
+	if r.Tick {
+		return nil // the log has one record per frame
+	}
 	rec := &s.rec
 	pts := rec.Points[:0]
 	for _, p := range r.Det.Points {
@@ -72,7 +75,7 @@ type VideoSink struct {
 
 // Frame implements Sink.
 func (s *VideoSink) Frame(r *Result, img gocv.Mat) error {
-	if img.Empty() {
+	if r.Tick || img.Empty() {
 		return nil
 	}
 	sz := image.Pt(img.Cols(), img.Rows())

@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"time"
 
 	"github.com/hewline/hewline/capture/synth"
 	"github.com/hewline/hewline/guidance/score"
@@ -25,6 +26,7 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	out := fs.String("out", "hewline-demo", "output `DIR` for the clip, truth, track log, annotated video and summary")
 	scen := fs.String("scenario", "weave,gap", "comma-separated built-in `SCENARIOS` to render (see -list)")
 	list := fs.Bool("list", false, "list the built-in scenarios and exit")
+	readme := fs.String("readme", "", "also write the score table into `FILE` between its <!-- scores:begin --> and <!-- scores:end --> lines")
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -46,7 +48,11 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fmt.Fprintln(stdout, safetyShort)
 	var results []*score.Result
 	var md strings.Builder
-	for _, name := range strings.Split(*scen, ",") {
+	names := strings.Split(*scen, ",")
+	if *scen == "all" {
+		names = synth.Names()
+	}
+	for _, name := range names {
 		name = strings.TrimSpace(name)
 		sc, err := synth.Lookup(name)
 		if err != nil {
@@ -91,5 +97,31 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fmt.Fprintln(stdout)
 	score.WriteTable(stdout, results)
 	fmt.Fprintf(stdout, "\nsummary: %s\n", sumPath)
+	if *readme != "" {
+		var b strings.Builder
+		fmt.Fprintf(&b, "Scores of `hewline demo -scenario %s` (regenerate: `bash scripts/scores.sh`), %s, hewline %s:\n\n", *scen, time.Now().UTC().Format("2006-01-02"), version)
+		score.WriteTable(&b, results)
+		b.WriteString("\nReliability of the detector's stated confidence over these clips:\n\n")
+		score.WriteReliability(&b, all)
+		if err := replaceBetween(*readme, "<!-- scores:begin -->", "<!-- scores:end -->", b.String()); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "score table written into %s\n", *readme)
+	}
 	return nil
+}
+
+// replaceBetween replaces the text between two marker lines of a file.
+func replaceBetween(path, begin, end, text string) error {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return err
+	}
+	s := string(b)
+	i, j := strings.Index(s, begin), strings.Index(s, end)
+	if i < 0 || j < i {
+		return fmt.Errorf("%s: no %s ... %s markers", path, begin, end)
+	}
+	s = s[:i+len(begin)] + "\n" + text + s[j:]
+	return os.WriteFile(path, []byte(s), 0o644)
 }

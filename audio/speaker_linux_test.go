@@ -26,9 +26,11 @@ const childEnv = "HEWLINE_AUDIO_ALSA_CHILD"
 var alsaConfigs = map[string]string{
 	// ALSA's null plugin: takes samples and discards them, like a card.
 	"null": "pcm.!default { type null }\n",
-	// A device that fails mid-run: ALSA's file plugin writing to /dev/full
-	// fails every write after its buffer fills (ENOSPC → EIO).
-	"lost": "pcm.!default { type file slave.pcm { type null } file \"/dev/full\" format \"raw\" }\n",
+	// A device that fails mid-run: ALSA's file plugin pipes into a
+	// command that reads nothing and quits after 0.15 s; once the pipe is
+	// full writes wait, then fail (EPIPE → EIO). The open succeeds long
+	// before.
+	"lost": "pcm.!default { type file slave.pcm { type null } file \"|sleep 0.15\" format \"raw\" }\n",
 	// A card that does not exist.
 	"missing": "pcm.!default { type hw card 7 device 0 }\nctl.!default { type hw card 7 }\n",
 }

@@ -133,5 +133,6 @@ func BenchmarkCueToSinkRealTime(b *testing.B) {
 	}
 	sort.Slice(lat, func(i, j int) bool { return lat[i] < lat[j] })
 	b.ReportMetric(float64(lat[len(lat)/2].Microseconds())/1000, "median-ms")
+	b.ReportMetric(float64(lat[len(lat)*95/100].Microseconds())/1000, "p95-ms")
 	b.ReportMetric(float64(lat[len(lat)-1].Microseconds())/1000, "max-ms")
 }

@@ -145,9 +145,9 @@ func (s *Synth) apply(c Cue) {
 
 func (s *Synth) guideSample() (l, r float64) {
 	t := &s.target
-	s.gainL += (t.gainL - s.gainL) * s.smooth
-	s.gainR += (t.gainR - s.gainR) * s.smooth
-	s.freq += (t.freqHz - s.freq) * s.smooth
+	s.gainL = glide(s.gainL, t.gainL, s.smooth)
+	s.gainR = glide(s.gainR, t.gainR, s.smooth)
+	s.freq = glide(s.freq, t.freqHz, s.smooth)
 	on := 1.0
 	if t.pulseHz > 0 {
 		if s.pulsePhase >= s.m.PulseDuty {
@@ -161,6 +161,17 @@ func (s *Synth) guideSample() (l, r float64) {
 	s.phase += s.freq / s.rate
 	s.phase -= math.Floor(s.phase)
 	return v * s.gainL, v * s.gainR
+}
+
+// glide moves v a share k of the way to target, and lands on it once
+// within 1e-7 (−140 dB of full scale), so a silenced cue ends in true
+// digital silence within about 15 ms instead of decaying for ever.
+func glide(v, target, k float64) float64 {
+	v += (target - v) * k
+	if math.Abs(target-v) < 1e-7 {
+		return target
+	}
+	return v
 }
 
 func slewTo(v, target, step float64) float64 {

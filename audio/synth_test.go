@@ -107,8 +107,8 @@ func TestDeadBand(t *testing.T) {
 		s.Set(Cue{Guide: true, Offset: -0.04})
 		render(s, 50*time.Millisecond)
 		l, r := render(s, 200*time.Millisecond)
-		if maxAbs(l) > 1e-6 || maxAbs(r) > 1e-6 {
-			t.Errorf("inside the dead band peaks are %g, %g; want silence", maxAbs(l), maxAbs(r))
+		if maxAbs(l) != 0 || maxAbs(r) != 0 {
+			t.Errorf("inside the dead band peaks are %g, %g; want digital silence", maxAbs(l), maxAbs(r))
 		}
 	})
 	t.Run("soft centre", func(t *testing.T) {

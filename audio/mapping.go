@@ -141,7 +141,10 @@ type guideParams struct {
 // params maps a cue to the guidance sound. Alarm and Guide are not looked
 // at here.
 func (m Mapping) params(c Cue) guideParams {
-	e := c.Offset + m.HeadingWeight*c.Heading
+	e := c.Offset
+	if m.HeadingWeight != 0 { // an unused heading, even NaN, changes nothing
+		e += m.HeadingWeight * c.Heading
+	}
 	if !finite(e) {
 		return guideParams{freqHz: m.MinPitchHz}
 	}

@@ -148,6 +148,19 @@ func TestMuting(t *testing.T) {
 	}
 }
 
+func TestUnusedHeadingIsIgnored(t *testing.T) {
+	m := DefaultMapping() // HeadingWeight 0
+	l, r, _, _ := m.Expected(Cue{Guide: true, Offset: 0.5, Heading: math.NaN()})
+	wl, wr, _ := documented(m, Cue{Guide: true, Offset: 0.5})
+	if l != wl || r != wr {
+		t.Errorf("NaN heading with weight 0: %g, %g dBFS, want %g, %g", l, r, wl, wr)
+	}
+	m.HeadingWeight = 0.5
+	if l, r, _, _ := m.Expected(Cue{Guide: true, Offset: 0.5, Heading: math.NaN()}); !math.IsInf(l, -1) || !math.IsInf(r, -1) {
+		t.Errorf("NaN heading in use: %g, %g dBFS, want the cue muted", l, r)
+	}
+}
+
 func TestPulseMode(t *testing.T) {
 	m := DefaultMapping()
 	m.Mode = ModePulse

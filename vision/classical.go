@@ -64,6 +64,7 @@ type Classical struct {
 	widths    []int
 	fit       fitter
 	rng       uint64
+	hairline  float64 // width at which a candidate counts half, working px
 	closed    bool
 }
 

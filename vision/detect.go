@@ -15,6 +15,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		return notFound("region of interest too small for this frame")
 	}
 	sigma := c.noiseSigma(l, fr.ww)
+	c.hairline = 0.006 * float64(fr.ww)
 	c.widths = c.ridgeWidths(fr, l, c.widths)
 	wantLight := c.cfg.Polarity != PolarityDark || c.hasTape
 	wantDark := c.cfg.Polarity != PolarityLight && !c.hasTape
@@ -81,8 +82,8 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		return notFound(c.whyNot(l))
 	}
 
-	// Ambiguity: the best line among what is left once the chosen line's
-	// support is removed.
+	// Ambiguity: the best other line, drawn from candidates off the chosen
+	// one, under the same gate as the chosen line.
 	for i := range c.cands {
 		cd := &c.cands[i]
 		cd.taken = math.Abs(cd.x-chosen.centre.x(cd.y)) <= math.Max(1.5*chosen.width.x(cd.y), 2*tolerance(cd, fr.ww))
@@ -92,7 +93,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		if (d && !wantDark) || (!d && !wantLight) {
 			continue
 		}
-		r := c.ransac(l, fr.ww, byBand, selector{dark: d, skipTaken: true}, slot)
+		r := c.ransac(l, fr.ww, byBand, selector{dark: d, gatedOnly: fromPrior, sampleFree: true}, slot)
 		slot++
 		if c.acceptable(r, l) {
 			second = math.Max(second, r.score)
@@ -125,6 +126,15 @@ func (c *Classical) whyNot(l bandLayout) string {
 		return fmt.Sprintf("too few rows with candidates (%d of %d)", bands, l.n)
 	}
 	return "no consistent line through the candidates"
+}
+
+// widthHintIn is the configured stripe width at the reference row in
+// input pixels, 0 when unknown.
+func (c *Classical) widthHintIn(fr frameGeom) float64 {
+	if c.cfg.WidthHintFrac > 0 {
+		return c.cfg.WidthHintFrac * fr.inW
+	}
+	return c.cfg.WidthHintPx
 }
 
 func clamp01(v float64) float64 { return math.Min(1, math.Max(0, v)) }
@@ -171,6 +181,14 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		{1 - clamp01((second/r.score-0.3)/0.6), "ambiguous: another line nearly as strong"},
 		{1 - 0.7*r.satShare, "saturated (glare or reflection)"},
 	}
+	// Near the vehicle a stripe is wide: a hairline there (under 1.2 % of
+	// the frame width, or under half the configured width) is more likely
+	// a joint or a crack than tape.
+	minW := 2 * c.hairline / fr.sx
+	if hw := c.widthHintIn(fr); hw > 0 {
+		minW = 0.5 * hw
+	}
+	fs = append(fs, factor{clamp01(widthIn / minW), "too narrow for a stripe"})
 	// The reference row should lie on or near the measured stretch.
 	if e := math.Max(yRefW-(r.yHi+step), (r.yLo-step)-yRefW); e > 0 {
 		// Extrapolating the offset beyond the seen stretch is a guess: a tenth

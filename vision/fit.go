@@ -44,11 +44,18 @@ type fitter struct {
 type selector struct {
 	dark      bool // the polarity
 	gatedOnly bool // only candidates inside the prediction gate
-	skipTaken bool // leave out candidates of the line already found
+	// sampleFree: draw hypotheses only from candidates off the line
+	// already found (they may still gain support from its candidates, so
+	// a branch sharing the stripe's near end is scored in full).
+	sampleFree bool
 }
 
 func (s selector) ok(cd *candidate) bool {
-	return cd.dark == s.dark && (!s.gatedOnly || cd.gated) && (!s.skipTaken || !cd.taken)
+	return cd.dark == s.dark && (!s.gatedOnly || cd.gated)
+}
+
+func (s selector) sample(cd *candidate) bool {
+	return s.ok(cd) && (!s.sampleFree || !cd.taken)
 }
 
 // maxSlope bounds |dx/dy| along the line: 75° from the image vertical.
@@ -69,11 +76,14 @@ func tolerance(cd *candidate, ww int) float64 {
 }
 
 // weight of a supporting candidate: contrast in noise units (capped, so a
-// single glaring streak does not outvote a long dim stripe), halved when
-// saturated, and a little more near the bottom of the ROI, where the
-// floor right ahead of the vehicle is.
+// single glaring streak does not outvote a long dim stripe), reduced when
+// saturated, a little more near the bottom of the ROI, where the floor
+// right ahead of the vehicle is, and less for hairlines: a joint, crack or
+// grout line a pixel or two wide counts about a third of a stripe
+// (w/(w + 0.6 % of the working width)).
 func (c *Classical) weight(cd *candidate, l bandLayout) float64 {
 	w := math.Min(cd.snr, 20) / 20
+	w *= cd.w / (cd.w + c.hairline)
 	if cd.sat {
 		w *= 0.3
 	}
@@ -131,7 +141,7 @@ func (c *Classical) ransac(l bandLayout, ww int, byBand [][2]int, sel selector, 
 	*res = fitResult{bands: res.bands[:0]}
 	f.idx = f.idx[:0]
 	for i := range c.cands {
-		if sel.ok(&c.cands[i]) {
+		if sel.sample(&c.cands[i]) {
 			f.idx = append(f.idx, i)
 		}
 	}

@@ -35,7 +35,22 @@ type scene struct {
 	// fractions, drawn 0.3 % of the width thick.
 	cracks [][4]float64
 	none   bool // no stripe at all
-	seed   uint64
+	// others are further stripes (a branch at a junction, a parallel
+	// line), each drawn like the main one in its own colour.
+	others []otherLine
+	// streaks are ceiling-lamp reflections on a glossy floor: short
+	// bright ellipses, elongated along the view, that saturate.
+	streaks []streak
+	seed    uint64
+}
+
+type otherLine struct {
+	xBottom, xTop, wBottom, wTop, top float64
+	colour                            [3]float64
+}
+
+type streak struct {
+	x, y, halfW, halfH float64 // fractions of the frame
 }
 
 func (s scene) centre(yf float64) float64 {
@@ -67,6 +82,28 @@ func (s scene) draw(t testing.TB) gocv.Mat {
 				hi := math.Min(float64(x+1), xc+wd/2)
 				cov = math.Max(0, hi-lo)
 			}
+			px := (float64(x) + 0.5) / float64(s.w)
+			var ocov float64
+			var ocol [3]float64
+			for _, o := range s.others {
+				if yf < o.top {
+					continue
+				}
+				oc := (o.xTop + (o.xBottom-o.xTop)*yf) * float64(s.w)
+				ow := (o.wTop + (o.wBottom-o.wTop)*yf) * float64(s.w)
+				lo := math.Max(float64(x), oc-ow/2)
+				hi := math.Min(float64(x+1), oc+ow/2)
+				if v := math.Max(0, hi-lo); v > ocov {
+					ocov, ocol = v, o.colour
+				}
+			}
+			glare := 0.0
+			for _, g := range s.streaks {
+				dx, dy := (px-g.x)/g.halfW, (yf-g.y)/g.halfH
+				if r := dx*dx + dy*dy; r < 1 {
+					glare = math.Max(glare, 1-r*r)
+				}
+			}
 			light := 1.0
 			if s.shade != nil {
 				light = s.shade((float64(x)+0.5)/float64(s.w), yf)
@@ -78,8 +115,11 @@ func (s scene) draw(t testing.TB) gocv.Mat {
 			n := rng.NormFloat64() * s.noise
 			for ch := 0; ch < 3; ch++ {
 				v := s.floor[ch]*(1-cov) + s.stripe[ch]*cov
+				if ocov > cov {
+					v = s.floor[ch]*(1-ocov) + ocol[ch]*ocov
+				}
 				v *= 1 - 0.6*crack
-				v = v*light + n
+				v = v*light + n + 400*glare
 				buf[(y*s.w+x)*3+ch] = uint8(math.Max(0, math.Min(255, math.Round(v))))
 			}
 		}

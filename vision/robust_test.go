@@ -1,0 +1,140 @@
+package vision
+
+import (
+	"math"
+	"testing"
+)
+
+// Scenes without a stripe must not be reported with confidence ≥ 0.5
+// (safety: an output that cannot be trusted must say so).
+func TestNoStripe(t *testing.T) {
+	grout := func() [][4]float64 {
+		// A tiled floor in perspective: joints converging to a point above
+		// the frame, and cross joints.
+		var c [][4]float64
+		for i := -3; i <= 3; i++ {
+			c = append(c, [4]float64{0.5 + 0.03*float64(i), 0, 0.5 + 0.25*float64(i), 1})
+		}
+		for _, y := range []float64{0.15, 0.3, 0.5, 0.75} {
+			c = append(c, [4]float64{0, y, 1, y})
+		}
+		return c
+	}
+	tests := map[string]func(s *scene){
+		"bare concrete":  func(s *scene) {},
+		"noisy concrete": func(s *scene) { s.noise = 25 },
+		"shadow edges": func(s *scene) {
+			s.shade = func(x, y float64) float64 {
+				if x > 0.4+0.2*y {
+					return 0.4
+				}
+				return 1
+			}
+		},
+		"cracks": func(s *scene) {
+			s.cracks = [][4]float64{{0.2, 0.3, 0.3, 1}, {0.7, 0.5, 0.6, 1}, {0, 0.6, 1, 0.65}}
+		},
+		"tile joints": func(s *scene) { s.cracks = grout() },
+		"lamp reflections": func(s *scene) {
+			s.streaks = []streak{{x: 0.3, y: 0.45, halfW: 0.02, halfH: 0.08}, {x: 0.65, y: 0.7, halfW: 0.025, halfH: 0.1}}
+		},
+		"black": func(s *scene) { s.floor = [3]float64{0, 0, 0}; s.noise = 0 },
+		"white": func(s *scene) { s.floor = [3]float64{255, 255, 255}; s.noise = 0 },
+	}
+	for name, mod := range tests {
+		t.Run(name, func(t *testing.T) {
+			s := baseScene(640, 480)
+			s.none = true
+			mod(&s)
+			img := s.draw(t)
+			defer img.Close()
+			det, _ := NewClassical(DefaultConfig())
+			defer det.Close()
+			d := det.Detect(img, Hint{})
+			t.Logf("found %v conf %.2f reason %q off %.1f", d.Found, d.Confidence, d.Reason, d.OffsetPx)
+			if d.Found && d.Confidence >= 0.5 {
+				t.Errorf("no stripe in the scene, but found with confidence %.2f (offset %.1f)", d.Confidence, d.OffsetPx)
+			}
+			if !d.Found && d.Reason == "" {
+				t.Error("not found without a reason")
+			}
+		})
+	}
+}
+
+// Distractors beside a real stripe must not pull the line off it.
+func TestDistractors(t *testing.T) {
+	tests := map[string]func(s *scene){
+		"lamp reflections": func(s *scene) {
+			s.streaks = []streak{{x: 0.3, y: 0.55, halfW: 0.02, halfH: 0.12}, {x: 0.75, y: 0.75, halfW: 0.025, halfH: 0.15}}
+		},
+		"reflection on the stripe": func(s *scene) {
+			s.streaks = []streak{{x: 0.53, y: 0.6, halfW: 0.03, halfH: 0.1}}
+		},
+		"tyre mark": func(s *scene) {
+			// A dark, wider, fainter trail beside the stripe.
+			s.others = []otherLine{{xBottom: 0.25, xTop: 0.4, wBottom: 0.1, wTop: 0.04, top: 0.45, colour: [3]float64{85, 88, 92}}}
+		},
+		"tile joints": func(s *scene) {
+			for i := -3; i <= 3; i++ {
+				s.cracks = append(s.cracks, [4]float64{0.5 + 0.03*float64(i), 0, 0.5 + 0.25*float64(i), 1})
+			}
+			for _, y := range []float64{0.35, 0.5, 0.7, 0.95} {
+				s.cracks = append(s.cracks, [4]float64{0, y, 1, y})
+			}
+		},
+		"worn tape": func(s *scene) {
+			s.stripe = [3]float64{150, 155, 160} // faded: contrast 0.35
+			s.noise = 10
+		},
+	}
+	for name, mod := range tests {
+		t.Run(name, func(t *testing.T) {
+			s := baseScene(640, 480)
+			mod(&s)
+			img := s.draw(t)
+			defer img.Close()
+			det, _ := NewClassical(DefaultConfig())
+			defer det.Close()
+			d := det.Detect(img, Hint{})
+			t.Logf("found %v conf %.2f reason %q off %.1f", d.Found, d.Confidence, d.Reason, d.OffsetPx)
+			checkAgainst(t, s, d)
+		})
+	}
+}
+
+// At a junction two stripes leave the same spot: the tracker's prediction
+// chooses, and without one the detector says it is unsure.
+func TestJunctionHint(t *testing.T) {
+	s := baseScene(640, 480)
+	s.xBottom, s.xTop = 0.5, 0.48
+	branch := otherLine{xBottom: 0.5, xTop: 0.85, wBottom: 0.08, wTop: 0.02, top: 0.3, colour: whiteTape}
+	s.others = []otherLine{branch}
+	img := s.draw(t)
+	defer img.Close()
+	det, _ := NewClassical(DefaultConfig())
+	defer det.Close()
+
+	d := det.Detect(img, Hint{})
+	t.Logf("no hint: found %v conf %.2f reason %q off %.1f head %.1f", d.Found, d.Confidence, d.Reason, d.OffsetPx, d.HeadingDeg)
+	if d.Found && d.Confidence >= 0.5 {
+		t.Errorf("two equal lines, no prior: confidence %.2f, want < 0.5", d.Confidence)
+	}
+
+	// Prior on the straight-on stripe.
+	ref := 0.8 * 480
+	h := Hint{Valid: true, OffsetPx: s.truthAt(ref) - 320, HeadingDeg: s.truthHeading(ref), OffsetSigma: 6, HeadingSigma: 3}
+	d = det.Detect(img, h)
+	t.Logf("hint on the stripe: conf %.2f off %.1f head %.1f", d.Confidence, d.OffsetPx, d.HeadingDeg)
+	checkAgainst(t, s, d)
+
+	// Prior on the branch: the detector follows the branch.
+	bs := s
+	bs.xBottom, bs.xTop, bs.others = branch.xBottom, branch.xTop, nil
+	h = Hint{Valid: true, OffsetPx: bs.truthAt(ref) - 320, HeadingDeg: bs.truthHeading(ref), OffsetSigma: 6, HeadingSigma: 3}
+	d = det.Detect(img, h)
+	t.Logf("hint on the branch: conf %.2f off %.1f head %.1f", d.Confidence, d.OffsetPx, d.HeadingDeg)
+	if math.Abs(d.HeadingDeg-bs.truthHeading(ref)) > 3 {
+		t.Errorf("heading %.1f°, the branch's is %.1f°", d.HeadingDeg, bs.truthHeading(ref))
+	}
+}

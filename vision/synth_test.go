@@ -2,6 +2,7 @@ package vision
 
 import (
 	"errors"
+	"fmt"
 	"io"
 	"math"
 	"sort"
@@ -116,6 +117,21 @@ func scoreClip(t *testing.T, sc synth.Scenario, every int, cfg Config) clipScore
 	return s
 }
 
+var clipCache = map[string]clipScore{}
+
+// cachedScore scores a built-in clip with the default configuration once
+// per test run (rendering is the slow part).
+func cachedScore(t *testing.T, name string, every int) clipScore {
+	t.Helper()
+	key := fmt.Sprintf("%s/%d", name, every)
+	if s, ok := clipCache[key]; ok {
+		return s
+	}
+	s := scoreClip(t, lookup(t, name), every, DefaultConfig())
+	clipCache[key] = s
+	return s
+}
+
 func lookup(t *testing.T, name string) synth.Scenario {
 	t.Helper()
 	sc, err := synth.Lookup(name)
@@ -126,7 +142,7 @@ func lookup(t *testing.T, name string) synth.Scenario {
 }
 
 func TestSynthWeave(t *testing.T) {
-	s := scoreClip(t, lookup(t, "weave"), 3, DefaultConfig())
+	s := cachedScore(t, "weave", 3)
 	t.Logf("weave: %d/%d visible frames matched (%.3f), median offset error %.2f px, %d confident wrong, %d/%d hidden frames tracked",
 		s.correct, s.visible, s.recall(), s.medianErr, s.wrongConfident, s.falseTrack, s.hidden)
 	if s.recall() < 0.98 {
@@ -141,7 +157,7 @@ func TestSynthWeave(t *testing.T) {
 }
 
 func TestSynthGap(t *testing.T) {
-	s := scoreClip(t, lookup(t, "gap"), 2, DefaultConfig())
+	s := cachedScore(t, "gap", 2)
 	t.Logf("gap: %d/%d visible frames matched (%.3f), median offset error %.2f px, %d confident wrong, %d/%d hidden frames tracked",
 		s.correct, s.visible, s.recall(), s.medianErr, s.wrongConfident, s.falseTrack, s.hidden)
 	if s.hidden == 0 {

@@ -2,6 +2,7 @@ package pipeline_test
 
 import (
 	"context"
+	"fmt"
 	"io"
 	"os"
 	"path/filepath"
@@ -31,6 +32,13 @@ func replayScenario(t testing.TB, name string, frames int) *score.Result {
 	if frames > 0 {
 		sc.Frames = frames
 	}
+	return replayScene(t, sc)
+}
+
+// replayScene is replayScenario for a scene already set up.
+func replayScene(t testing.TB, sc synth.Scenario) *score.Result {
+	t.Helper()
+	name := sc.Name
 	dir := t.TempDir()
 	clip, tp, lp := filepath.Join(dir, name+".avi"), filepath.Join(dir, name+".truth.ndjson"), filepath.Join(dir, name+".track.ndjson")
 	if err := synth.WriteClip(sc, clip, tp); err != nil {
@@ -169,3 +177,39 @@ func (l limited) Read(m *gocv.Mat) (capture.FrameInfo, error) {
 }
 
 var errEOF = io.EOF
+
+// TestResolutionIndependence: halving or doubling a clip's resolution (the
+// same scene rendered at 320×240, 640×480 and 1280×960) changes recall by
+// less than 0.02, with the same settings: nothing is tuned in pixels.
+func TestResolutionIndependence(t *testing.T) {
+	if testing.Short() {
+		t.Skip("renders and replays whole clips")
+	}
+	for _, name := range []string{"curves"} {
+		t.Run(name, func(t *testing.T) {
+			recall := map[int]float64{}
+			for _, w := range []int{320, 640, 1280} {
+				r := replayResized(t, name, w, w*3/4, 150)
+				recall[w] = r.Recall()
+				t.Logf("%s at %dx%d: recall %.3f median %.2f px", name, w, w*3/4, r.Recall(), r.MedianError())
+			}
+			for _, w := range []int{320, 1280} {
+				if d := recall[w] - recall[640]; d < -0.02 || d > 0.02 {
+					t.Errorf("%s: recall %.3f at %d px wide vs %.3f at 640: differs by more than 0.02", name, recall[w], w, recall[640])
+				}
+			}
+		})
+	}
+}
+
+func replayResized(t *testing.T, name string, w, h, frames int) *score.Result {
+	t.Helper()
+	sc, err := synth.Lookup(name)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc = sc.Resized(w, h)
+	sc.Name = fmt.Sprintf("%s-%dx%d", name, w, h)
+	sc.Frames = frames
+	return replayScene(t, sc)
+}

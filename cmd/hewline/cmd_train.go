@@ -34,13 +34,15 @@ func init() {
 }
 
 func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("train", "[-o model.onnx] [-seed N] [-epochs N] [-frames N] [-site CLIP]...", stderr)
+	fs := newFlags("train", "[-o model.onnx] [-seed N] [-epochs N] [-frames N] [-synth N] [-site CLIP]...", stderr)
 	out := fs.String("o", "model.onnx", "where to write the trained model")
 	seed := fs.Uint64("seed", 1, "random seed for scenes, weights, split and shuffling")
 	epochs := fs.Int("epochs", 30, "most passes over the training data (early stopping may end sooner)")
-	frames := fs.Int("frames", 8000, "rendered training scenes")
+	frames := fs.Int("frames", 16000, "quick image-plane training scenes")
+	synthFrames := fs.Int("synth", 4000, "frames from the renderer's scenarios (capture/synth), randomised")
 	batch := fs.Int("batch", 32, "samples per Adam step")
 	lr := fs.Float64("lr", 2e-3, "Adam step size")
+	decay := fs.Float64("decay", 0.9, "factor applied to the step size after every epoch")
 	val := fs.Float64("val", 0.15, "share of samples held out for validation")
 	patience := fs.Int("patience", 4, "epochs without a better validation loss before stopping")
 	minConf := fs.Float64("site-min-conf", 0.8, "lowest classical confidence taken as a label from site clips")
@@ -56,11 +58,11 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	if fs.NArg() != 0 {
 		return usagef("unexpected arguments %v", fs.Args())
 	}
-	if *frames < 0 || *epochs < 1 || *batch < 1 || *lr <= 0 || *val <= 0 || *val >= 1 || *patience < 1 {
-		return usagef("-frames ≥ 0, -epochs ≥ 1, -batch ≥ 1, -lr > 0, 0 < -val < 1 and -patience ≥ 1")
+	if *frames < 0 || *synthFrames < 0 || *epochs < 1 || *batch < 1 || *lr <= 0 || *decay <= 0 || *decay > 1 || *val <= 0 || *val >= 1 || *patience < 1 {
+		return usagef("-frames ≥ 0, -synth ≥ 0, -epochs ≥ 1, -batch ≥ 1, -lr > 0, 0 < -decay ≤ 1, 0 < -val < 1 and -patience ≥ 1")
 	}
-	if *frames == 0 && len(sites) == 0 {
-		return usagef("nothing to train on: give -frames > 0 or -site")
+	if *frames == 0 && *synthFrames == 0 && len(sites) == 0 {
+		return usagef("nothing to train on: give -frames, -synth or -site")
 	}
 	logw := stderr
 	if *logPath != "" {
@@ -77,6 +79,14 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	data, err := cnn.SceneSamples(a, *frames, *seed)
 	if err != nil {
 		return err
+	}
+	if *synthFrames > 0 {
+		fmt.Fprintf(logw, "rendering %d frames of the renderer's scenarios...\n", *synthFrames)
+		s, err := cnn.SynthSamples(a, *synthFrames, *seed)
+		if err != nil {
+			return err
+		}
+		data = append(data, s...)
 	}
 	for _, clip := range sites {
 		if siteLabeler == nil {
@@ -113,7 +123,7 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	if f, ok := stderr.(*os.File); ok && term.IsTerminal(int(f.Fd())) {
 		bar = progressbar.NewOptions(100, progressbar.OptionSetWriter(stderr), progressbar.OptionClearOnFinish())
 	}
-	cfg := cnn.TrainConfig{Epochs: *epochs, Batch: *batch, LR: *lr, Seed: *seed, ValFrac: *val, Patience: *patience, Mirror: *mirror, Log: logw,
+	cfg := cnn.TrainConfig{Epochs: *epochs, Batch: *batch, LR: *lr, Decay: *decay, Seed: *seed, ValFrac: *val, Patience: *patience, Mirror: *mirror, Log: logw,
 		Stop: func() bool { return ctx.Err() != nil }}
 	if bar != nil {
 		cfg.Step = func(ep, done, total int) {
@@ -145,6 +155,7 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	m.Notes["train.val_row_acc"] = fmt.Sprintf("%.4f", best.Val.RowAcc)
 	m.Notes["train.val_within_1_cell"] = fmt.Sprintf("%.4f", best.Val.RowNear)
 	m.Notes["train.sites"] = fmt.Sprint(len(sites))
+	m.Notes["train.data"] = fmt.Sprintf("%d image-plane scenes, %d renderer frames, %d site clips", *frames, *synthFrames, len(sites))
 	b, err := m.MarshalONNX()
 	if err != nil {
 		return err

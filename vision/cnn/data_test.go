@@ -324,3 +324,28 @@ func samplesEqual(a, b []float32) bool {
 	}
 	return true
 }
+
+func TestSynthSamples(t *testing.T) {
+	a := DefaultArch()
+	s, err := SynthSamples(a, 25, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(s) != 25 {
+		t.Fatalf("%d samples, want 25", len(s))
+	}
+	present := 0
+	for _, smp := range s {
+		for _, l := range smp.Labels {
+			if int(l) != a.Absent() {
+				present++
+			}
+		}
+	}
+	// The renderer's camera looks down the aisle, so the stripe crosses
+	// all anchor rows of a "weave" frame; "gap" clips may start past the
+	// tape's end, so ask for a third of the rows overall.
+	if present < 25*a.Rows/3 {
+		t.Errorf("stripe on only %d of %d rows", present, 25*a.Rows)
+	}
+}

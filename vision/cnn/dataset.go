@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"image"
 	"io"
-	"math"
 	"math/rand/v2"
 
 	"github.com/hewline/hewline/capture"
@@ -22,7 +21,8 @@ const (
 	trainH = 120
 )
 
-// SceneSamples renders n random scenes (RandomScene) from seed, degrades
+// SceneSamples renders n random scenes (RandomScene) from seed, 160 wide
+// and 60 to 120 high, degrades
 // about three in four of them (Degrade, random strength) and returns them
 // as samples labelled from the scenes' exact centrelines.
 func SceneSamples(a Arch, n int, seed uint64) ([]Sample, error) {
@@ -31,10 +31,16 @@ func SceneSamples(a Arch, n int, seed uint64) ([]Sample, error) {
 	defer img.Close()
 	pre := NewPreprocessor(a)
 	defer pre.Close()
-	roi := image.Rect(0, 0, trainW, trainH)
 	out := make([]Sample, 0, n)
 	for i := 0; i < n; i++ {
-		sc := RandomScene(rng, trainW, trainH)
+		// Two in five scenes are wider than 4:3, as a region of interest
+		// cut from the lower part of a frame is.
+		h := trainH
+		if rng.Float64() < 0.4 {
+			h = trainH/2 + rng.IntN(trainH/2)
+		}
+		roi := image.Rect(0, 0, trainW, h)
+		sc := RandomScene(rng, trainW, h)
 		if err := sc.Render(&img); err != nil {
 			return nil, err
 		}
@@ -177,22 +183,4 @@ func SiteSamples(src FrameReader, lab Labeler, a Arch, cfg SiteConfig) ([]Sample
 		}
 	}
 	return out, st, nil
-}
-
-// rowError is used by tests and by the train command: the mean absolute
-// error in frame pixels between the detected points and the true
-// centreline at each anchor row where both exist.
-func rowError(d vision.Detection, truthX func(y float64) (float64, bool)) (float64, int) {
-	var sum float64
-	n := 0
-	for _, p := range d.Points {
-		if x, ok := truthX(p.Y); ok {
-			sum += math.Abs(p.X - x)
-			n++
-		}
-	}
-	if n == 0 {
-		return 0, 0
-	}
-	return sum / float64(n), n
 }

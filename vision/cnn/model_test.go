@@ -1,12 +1,15 @@
 package cnn
 
 import (
+	"errors"
 	"image"
+	"io"
 	"math"
 	"os"
 	"strconv"
 	"testing"
 
+	"github.com/hewline/hewline/capture/synth"
 	"github.com/hewline/hewline/vision"
 	"gocv.io/x/gocv"
 )
@@ -212,4 +215,96 @@ func BenchmarkTrainSample(b *testing.B) {
 		m.forward(wk, data[0].In)
 		m.backward(wk, data[0].Labels, g)
 	}
+}
+
+// polyX interpolates the x of the polyline pts at row y.
+func polyX(pts [][2]float64) func(y float64) (float64, bool) {
+	return func(y float64) (float64, bool) {
+		for i := 1; i < len(pts); i++ {
+			p, q := pts[i-1], pts[i]
+			if (y-p[1])*(y-q[1]) <= 0 && p[1] != q[1] {
+				return p[0] + (q[0]-p[0])*(y-p[1])/(q[1]-p[1]), true
+			}
+		}
+		return 0, false
+	}
+}
+
+// TestShippedModelOnRenderer runs the shipped model on the project
+// renderer's "weave" clip at 640×480, frames 2 s apart along the whole
+// route, and scores each frame with the TuSimple rule scaled to this
+// width (evaluate/lane.py: a point is right within 20 px at 1280 wide,
+// 10 px here; a lane matches when at least 85 % of its points are right),
+// with the offset at the truth's reference row also within 10 px.
+func TestShippedModelOnRenderer(t *testing.T) {
+	sc, err := synth.Lookup("weave")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc.FPS, sc.Frames = 0.5, 10
+	r, err := synth.New(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	// Offsets are measured at the truth file's reference row.
+	d := shippedDetector(t, Config{RefRow: r.Header().RefRow})
+	defer d.Close()
+	img := gocv.NewMat()
+	defer img.Close()
+	matched, visible := 0, 0
+	for {
+		if _, err := r.Read(&img); errors.Is(err, io.EOF) {
+			break
+		} else if err != nil {
+			t.Fatal(err)
+		}
+		tf := r.Truth()
+		if !tf.Visible {
+			continue
+		}
+		visible++
+		det := d.Detect(img, vision.Hint{})
+		truthX := polyX(tf.Points)
+		good, n := 0, 0
+		for _, p := range det.Points {
+			if x, ok := truthX(p.Y); ok {
+				n++
+				if math.Abs(p.X-x) <= 10 {
+					good++
+				}
+			}
+		}
+		ok := det.Found && n > 0 && float64(good) >= 0.85*float64(n) && math.Abs(det.OffsetPx-tf.OffsetPx) <= 10
+		if ok {
+			matched++
+		}
+		t.Logf("frame %d: found %v, %d of %d points within 10 px, offset %.1f (true %.1f), confidence %.2f",
+			tf.Frame, det.Found, good, n, det.OffsetPx, tf.OffsetPx, det.Confidence)
+	}
+	if visible == 0 {
+		t.Fatal("no visible frames rendered")
+	}
+	// Nine frames in ten must match (a threshold of this test).
+	if float64(matched) < 0.9*float64(visible) {
+		t.Errorf("%d of %d frames match the truth by the TuSimple rule", matched, visible)
+	}
+}
+
+// rowError is the mean absolute error in frame pixels between the
+// detected points and the true centreline, over the points where the
+// truth exists.
+func rowError(d vision.Detection, truthX func(y float64) (float64, bool)) (float64, int) {
+	var sum float64
+	n := 0
+	for _, p := range d.Points {
+		if x, ok := truthX(p.Y); ok {
+			sum += math.Abs(p.X - x)
+			n++
+		}
+	}
+	if n == 0 {
+		return 0, 0
+	}
+	return sum / float64(n), n
 }

@@ -21,6 +21,7 @@ type TrainConfig struct {
 	Epochs   int     // most passes over the training split [30]
 	Batch    int     // samples per Adam step [32]
 	LR       float64 // Adam step size [2e-3]
+	Decay    float64 // the step size is multiplied by this after every epoch [0.9]
 	Seed     uint64  // shuffling and the split [1]
 	ValFrac  float64 // share of the data held out for validation [0.15]
 	Patience int     // epochs without a better validation loss before stopping [4]
@@ -92,6 +93,9 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 	if cfg.Seed == 0 {
 		cfg.Seed = 1
 	}
+	if cfg.Decay <= 0 || cfg.Decay > 1 {
+		cfg.Decay = 0.9
+	}
 	if cfg.ValFrac <= 0 || cfg.ValFrac >= 1 {
 		cfg.ValFrac = 0.15
 	}
@@ -132,6 +136,7 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 	best, bestLoss, since := m.clone(), math.Inf(1), 0
 	var stats []EpochStats
 	step := 0
+	lr := cfg.LR
 	for ep := 1; ep <= cfg.Epochs; ep++ {
 		rng.Shuffle(len(train), func(i, j int) { train[i], train[j] = train[j], train[i] })
 		var sum float64
@@ -154,7 +159,7 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 				}
 			}
 			step++
-			adamStep(params, g, mom, vel, cfg.LR, step)
+			adamStep(params, g, mom, vel, lr, step)
 			if cfg.Step != nil {
 				cfg.Step(ep, end, len(train))
 			}
@@ -162,6 +167,7 @@ func Train(m *Model, data []Sample, cfg TrainConfig) ([]EpochStats, error) {
 				return stats, ErrStopped
 			}
 		}
+		lr *= cfg.Decay
 		st := EpochStats{Epoch: ep, TrainLoss: sum / float64(len(train)), Val: Evaluate(m, val)}
 		stats = append(stats, st)
 		if cfg.Log != nil {

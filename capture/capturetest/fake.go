@@ -238,6 +238,14 @@ func corruptBytes(f v4l2.Format, k int) []byte {
 	return b
 }
 
+// FailNextOpens makes the next n calls to Open fail with
+// capture.ErrNotFound, like a camera that is not plugged in at start.
+func (c *FakeCamera) FailNextOpens(n int) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	c.failOpens = n
+}
+
 // Release ends the current (or next) Hold step.
 func (c *FakeCamera) Release() {
 	c.mu.Lock()

@@ -358,6 +358,7 @@ func (s *Supervisor) loop() {
 	var t0 time.Duration
 	haveT0 := false
 	var buf []byte
+	need := 0 // size a frame is known to need
 	select {
 	case buf = <-s.free:
 	case <-s.stop:
@@ -389,7 +390,8 @@ func (s *Supervisor) loop() {
 		case errors.Is(err, io.ErrShortBuffer) || (err == nil && n > len(buf)):
 			s.drops.Add(1)
 			if n > len(buf) {
-				buf = make([]byte, n+n/4)
+				need = n + n/4
+				buf = make([]byte, need)
 			}
 			continue
 		case errors.Is(err, ErrTimeout):
@@ -450,6 +452,9 @@ func (s *Supervisor) loop() {
 		case buf = <-s.free:
 		case <-s.stop:
 			return
+		}
+		if len(buf) < need {
+			buf = make([]byte, need)
 		}
 	}
 }

@@ -19,6 +19,7 @@ import (
 	"github.com/hewline/hewline/cmd/internal/pipeline"
 	"github.com/hewline/hewline/guidance"
 	"github.com/hewline/hewline/guidance/ctlstream"
+	"github.com/hewline/hewline/guidance/haptic"
 	"github.com/hewline/hewline/guidance/tracklog"
 	"github.com/hewline/hewline/vision"
 )
@@ -46,6 +47,8 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	speaker := fs.Bool("speaker", true, "sound cues and the alarm on the speaker (ALSA default device)")
 	requireAlarm := fs.Bool("require-alarm", true, "exit with code 3 when no alarm channel works (speaker lost and nothing else can sound the alarm)")
 	forDur := fs.Duration("for", 0, "stop after this long (0 = until interrupted or the source ends)")
+	vibSerial := fs.String("vibrate-serial", "", "vibration cues to a motor driver on serial `PORT` (line protocol \"L n R n\")")
+	vibGPIO := fs.String("vibrate-gpio", "", "vibration cues on two GPIO `PINS` \"LEFT,RIGHT\" (Linux GPIO character device)")
 	watchdog := fs.Duration("watchdog", 20*time.Millisecond, "tick the fail-safe this often when no frame comes")
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
@@ -144,6 +147,35 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		fmt.Fprintln(stdout, "controller:  none")
 	}
 
+	var vib *haptic.Vibrator
+	switch {
+	case *vibSerial != "" && *vibGPIO != "":
+		return usagef("give at most one of -vibrate-serial and -vibrate-gpio")
+	case *vibSerial != "":
+		d, err := haptic.OpenSerial(*vibSerial, 115200)
+		if err != nil {
+			return fmt.Errorf("vibration: %w", err)
+		}
+		vib = haptic.NewVibrator(d, haptic.NewMapper(), time.Now)
+		fmt.Fprintf(stdout, "vibration:   motor driver on %s\n", *vibSerial)
+	case *vibGPIO != "":
+		pins := strings.Split(*vibGPIO, ",")
+		if len(pins) != 2 {
+			return usagef("-vibrate-gpio wants LEFT,RIGHT, got %q", *vibGPIO)
+		}
+		d, err := haptic.OpenGPIO(pins[0], pins[1], false)
+		if err != nil {
+			return fmt.Errorf("vibration: %w", err)
+		}
+		vib = haptic.NewVibrator(d, haptic.NewMapper(), time.Now)
+		fmt.Fprintf(stdout, "vibration:   GPIO %s (left) and %s (right)\n", pins[0], pins[1])
+	default:
+		fmt.Fprintln(stdout, "vibration:   none")
+	}
+	if vib != nil {
+		defer vib.Close()
+	}
+
 	logPath := *track
 	if logPath == "" {
 		logPath = "run-" + time.Now().Format("20060102-150405") + ".track.ndjson"
@@ -199,10 +231,20 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		go sender.Run(runCtx, tick.C, func(err error) { fmt.Fprintf(stderr, "hewline run: controller stream: %v\n", err) })
 	}
 
+	if vib != nil {
+		vt := time.NewTicker(haptic.DefaultTick)
+		defer vt.Stop()
+		go vib.Run(runCtx, vt.C, func(err error) { fmt.Fprintf(stderr, "hewline run: VIBRATION CUES FAILED: %v\n", err) })
+	}
 	lat := &latencySink{out: stdout, budget: frameBudget(info.FPS), every: time.Minute}
 	sinks := []pipeline.Sink{&pipeline.LogSink{W: lw}, &pipeline.AudioSink{Player: player, Live: true}, lat}
 	if sender != nil {
 		sinks = append(sinks, &pipeline.StreamSink{Sender: sender})
+	}
+	if vib != nil {
+		sinks = append(sinks, &pipeline.HapticSink{V: vib, OnError: func(err error) {
+			fmt.Fprintf(stderr, "hewline run: VIBRATION CUES FAILED (the alarm goes on its other channels): %v\n", err)
+		}})
 	}
 	st, runErr := pipeline.Run(runCtx, src, pipeline.Config{
 		Detector: det, Tracker: tr, Floor: floor, Sinks: sinks,
@@ -211,6 +253,9 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 
 	// Shut down: outputs quiet and inert first, then the files.
 	player.Halt()
+	if vib != nil {
+		vib.Halt()
+	}
 	if sender != nil {
 		sender.Halt("hewline stopped")
 	}

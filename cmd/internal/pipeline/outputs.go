@@ -9,6 +9,7 @@ import (
 
 	"github.com/hewline/hewline/audio"
 	"github.com/hewline/hewline/guidance/ctlstream"
+	"github.com/hewline/hewline/guidance/haptic"
 )
 
 // AudioSink drives an audio.Player from each frame's cue decision. In
@@ -99,4 +100,33 @@ func (s *StreamSink) Frame(r *Result, _ gocv.Mat) error {
 		return nil
 	}
 	return err
+}
+
+// HapticSink hands each frame's cue decision to a vibration cue player.
+// The Vibrator runs its own patterns in time (its Run); the sink only sets
+// the cue, from trusted estimates alone (r.Cue).
+type HapticSink struct {
+	V *haptic.Vibrator
+	// FullScalePx is the offset that maps to the strongest cue; default a
+	// quarter of the frame width.
+	FullScalePx float64
+	// OnError is told of a failing vibration driver (it must report it
+	// loudly); the run goes on, since the alarm has its own channels.
+	OnError  func(error)
+	Failures int
+}
+
+// Frame implements Sink.
+func (s *HapticSink) Frame(r *Result, _ gocv.Mat) error {
+	fs := s.FullScalePx
+	if fs <= 0 {
+		fs = float64(r.Info.Size.X) / 4
+	}
+	if err := s.V.Cue(haptic.CueFrom(r.Cue, fs)); err != nil {
+		s.Failures++
+		if s.OnError != nil && (s.Failures == 1 || s.Failures%300 == 0) {
+			s.OnError(err)
+		}
+	}
+	return nil
 }

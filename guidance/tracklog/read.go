@@ -20,6 +20,8 @@ type Log struct {
 	Records []Record
 	// Summary is nil when the log has none (the run was cut short).
 	Summary *Summary
+
+	lastChain [32]byte // chain value of the last line that verified
 }
 
 // chainMarker precedes the hash on every line.
@@ -60,12 +62,27 @@ func read(r io.Reader, verify bool) (*Log, int, error) {
 		if i < 0 || !bytes.HasSuffix(b, []byte(`"}`)) {
 			return l, n, fmt.Errorf("tracklog: line %d: no chain field: %w", line, ErrBroken)
 		}
+		if line == 1 {
+			// A continued file's chain starts from the previous file's
+			// last chain value, named in its header.
+			var h struct {
+				PrevChain string `json:"prev_chain"`
+			}
+			if json.Unmarshal(b, &h) == nil && h.PrevChain != "" {
+				pb, err := hex.DecodeString(h.PrevChain)
+				if err != nil || len(pb) != 32 {
+					return l, n, fmt.Errorf("tracklog: line 1: prev_chain is not a SHA-256 in hex: %w", ErrBroken)
+				}
+				copy(prev[:], pb)
+			}
+		}
 		want := chainHash(prev, b[:i])
 		got := b[i+len(chainMarker) : len(b)-2]
 		if verify && hex.EncodeToString(want[:]) != string(got) {
 			return l, n, fmt.Errorf("tracklog: line %d: chain does not match (the line or one before it was altered, removed or moved): %w", line, ErrBroken)
 		}
 		copy(prev[:], mustHex(got))
+		l.lastChain = prev
 		if err := decode(l, b, line); err != nil {
 			return l, n, err
 		}

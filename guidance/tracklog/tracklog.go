@@ -31,7 +31,14 @@ type Header struct {
 	// Settings holds the detector, tracker and output settings in force,
 	// including the fail-safe time.
 	Settings map[string]any `json:"settings"`
-	Chain    string         `json:"chain,omitempty"`
+	// Part, PrevFile and PrevChain are set on the second and later files
+	// of a rotated log (see RotatingWriter): Part counts files from 1,
+	// PrevFile is the base name of the file before and PrevChain its last
+	// chain value, from which this file's chain continues.
+	Part      int    `json:"part,omitempty"`
+	PrevFile  string `json:"prev_file,omitempty"`
+	PrevChain string `json:"prev_chain,omitempty"`
+	Chain     string `json:"chain,omitempty"`
 }
 
 // Record is one frame.
@@ -63,17 +70,19 @@ type Record struct {
 
 // Summary is the last line. It has no "frame" field.
 type Summary struct {
-	Summary        bool               `json:"summary"`
-	Frames         int                `json:"frames"`
-	TrackingFrames int                `json:"tracking_frames"`
-	AlarmFrames    int                `json:"alarm_frames"`
-	Alarms         int                `json:"alarms"` // times the alarm turned on
-	StateFrames    map[string]int     `json:"state_frames"`
-	MethodFrames   map[string]int     `json:"method_frames"`
-	Duration       float64            `json:"duration_s"`
-	End            string             `json:"end"` // "eof", "error: ...", "interrupted"
-	Extra          map[string]float64 `json:"extra,omitempty"`
-	Chain          string             `json:"chain,omitempty"`
+	Summary        bool           `json:"summary"`
+	Frames         int            `json:"frames"`
+	TrackingFrames int            `json:"tracking_frames"`
+	AlarmFrames    int            `json:"alarm_frames"`
+	Alarms         int            `json:"alarms"` // times the alarm turned on
+	StateFrames    map[string]int `json:"state_frames"`
+	MethodFrames   map[string]int `json:"method_frames"`
+	Duration       float64        `json:"duration_s"`
+	End            string         `json:"end"` // "eof", "error: ...", "interrupted", "rotated"
+	// Next names the file the log continues in when End is "rotated".
+	Next  string             `json:"next,omitempty"`
+	Extra map[string]float64 `json:"extra,omitempty"`
+	Chain string             `json:"chain,omitempty"`
 }
 
 // Writer writes a track log. It is not safe for concurrent use.
@@ -89,9 +98,15 @@ type Writer struct {
 // NewWriter writes the header to w at once. w should be unbuffered (an
 // *os.File) so that each line reaches the file as it is written.
 func NewWriter(w io.Writer, h Header) (*Writer, error) {
+	h.Part, h.PrevFile, h.PrevChain = 0, "", ""
+	return newWriter(w, h, [32]byte{})
+}
+
+// newWriter starts the chain from prev (zero for a first file).
+func newWriter(w io.Writer, h Header, prev [32]byte) (*Writer, error) {
 	h.Format = Format
 	h.Chain = ""
-	cw := &chainWriter{w: w}
+	cw := &chainWriter{w: w, prev: prev}
 	hb, err := json.Marshal(h)
 	if err != nil {
 		return nil, fmt.Errorf("tracklog: header: %w", err)
@@ -221,6 +236,7 @@ type chainWriter struct {
 	prev [32]byte
 	buf  []byte
 	err  error
+	n    int64 // bytes written
 }
 
 func (c *chainWriter) Write(p []byte) (int, error) {
@@ -239,7 +255,9 @@ func (c *chainWriter) Write(p []byte) (int, error) {
 	c.buf = append(c.buf, `,"chain":"`...)
 	c.buf = hex.AppendEncode(c.buf, sum[:])
 	c.buf = append(c.buf, "\"}\n"...)
-	if _, err := c.w.Write(c.buf); err != nil {
+	n, err := c.w.Write(c.buf)
+	c.n += int64(n)
+	if err != nil {
 		c.err = err
 		return 0, err
 	}

@@ -64,6 +64,9 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	if *frames == 0 && *synthFrames == 0 && len(sites) == 0 {
 		return usagef("nothing to train on: give -frames, -synth or -site")
 	}
+	if len(sites) > 0 && siteLabeler == nil {
+		return fmt.Errorf("-site %s: this build has no classical detector wired in to label site footage", sites[0])
+	}
 	logw := stderr
 	if *logPath != "" {
 		f, err := os.Create(*logPath)
@@ -89,9 +92,6 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 		data = append(data, s...)
 	}
 	for _, clip := range sites {
-		if siteLabeler == nil {
-			return fmt.Errorf("-site %s: this build has no classical detector wired in to label site footage", clip)
-		}
 		lab, err := siteLabeler()
 		if err != nil {
 			return fmt.Errorf("-site %s: labeller: %w", clip, err)

@@ -1,0 +1,67 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/hewline/hewline/vision/cnn"
+)
+
+func TestTrainUsage(t *testing.T) {
+	tests := map[string][]string{
+		"no data":       {"train", "-frames", "0", "-synth", "0"},
+		"zero epochs":   {"train", "-epochs", "0"},
+		"bad val":       {"train", "-val", "1.5"},
+		"extra args":    {"train", "clip.mkv"},
+		"unknown flag":  {"train", "-bogus"},
+		"negative data": {"train", "-synth", "-3"},
+	}
+	for name, args := range tests {
+		t.Run(name, func(t *testing.T) {
+			var out, errb bytes.Buffer
+			if code := run(context.Background(), args, &out, &errb); code != 2 {
+				t.Errorf("exit %d, want 2 (stderr %q)", code, errb.String())
+			}
+		})
+	}
+}
+
+// TestTrainWritesModel trains for one short epoch and checks that the file
+// loads and records how it was made.
+func TestTrainWritesModel(t *testing.T) {
+	p := filepath.Join(t.TempDir(), "m.onnx")
+	var out, errb bytes.Buffer
+	code := run(context.Background(), []string{"train", "-o", p, "-frames", "80", "-synth", "20", "-epochs", "1", "-seed", "3"}, &out, &errb)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	if !strings.Contains(errb.String(), "epoch   1") || !strings.Contains(out.String(), "wrote "+p) {
+		t.Errorf("log %q, output %q", errb.String(), out.String())
+	}
+	b, err := os.ReadFile(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := cnn.UnmarshalONNX(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.Notes["train.seed"] != "3" || !strings.Contains(m.Notes["train.command"], "-frames 80") {
+		t.Errorf("notes %v", m.Notes)
+	}
+}
+
+func TestTrainSiteNeedsLabeller(t *testing.T) {
+	if siteLabeler != nil {
+		t.Skip("a labeller is wired in")
+	}
+	var out, errb bytes.Buffer
+	code := run(context.Background(), []string{"train", "-o", filepath.Join(t.TempDir(), "m.onnx"), "-frames", "10", "-synth", "0", "-site", "clip.mkv"}, &out, &errb)
+	if code != 1 || !strings.Contains(errb.String(), "no classical detector") {
+		t.Errorf("exit %d, stderr %q", code, errb.String())
+	}
+}

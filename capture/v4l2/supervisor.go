@@ -224,6 +224,8 @@ type rawFrame struct {
 	at     time.Time
 	// gap is the time since the previous frame came from the camera.
 	gap time.Duration
+	// gen counts the openings of the device (0 for the first).
+	gen int
 }
 
 type camState int
@@ -260,6 +262,8 @@ type Supervisor struct {
 	state    camState
 	deadline time.Time
 	index    int
+	gen      int       // newest device opening seen by Read
+	held     *rawFrame // a frame waiting behind a loss report
 }
 
 // NewSupervisor wraps raw. It does not open it: call Start.
@@ -359,6 +363,7 @@ func (s *Supervisor) loop() {
 	haveT0 := false
 	var buf []byte
 	need := 0 // size a frame is known to need
+	gen := 0
 	select {
 	case buf = <-s.free:
 	case <-s.stop:
@@ -377,6 +382,7 @@ func (s *Supervisor) loop() {
 			}
 			open = true
 			s.reopens.Add(1)
+			gen++
 			s.emit(Event{Kind: EventOpened, Attempt: attempt})
 			attempt, backoff = 0, s.opt.BackoffMin
 			lastFrame = clk.Now()
@@ -425,7 +431,7 @@ func (s *Supervisor) loop() {
 		if !haveT0 {
 			t0, haveT0 = ts, true
 		}
-		fr := rawFrame{buf: buf, n: n, ts: ts - t0, format: f, at: now, gap: gap}
+		fr := rawFrame{buf: buf, n: n, ts: ts - t0, format: f, at: now, gap: gap, gen: gen}
 		if s.opt.EveryFrame {
 			select {
 			case s.slot <- fr:
@@ -474,19 +480,26 @@ func (s *Supervisor) Read(dst *gocv.Mat) (capture.FrameInfo, error) {
 		if s.stopped() {
 			return capture.FrameInfo{}, io.EOF
 		}
-		// A loss is reported first, then a waiting frame, before any stall
-		// verdict.
-		if err := s.takePending(); err != nil {
-			return capture.FrameInfo{}, err
-		}
-		select {
-		case fr := <-s.slot:
-			info, ok := s.deliver(fr, dst)
-			if ok {
+		// Order: frames taken before a loss, then the loss, then frames
+		// from after the reopen; a stall verdict only when nothing waits.
+		if s.held != nil {
+			fr := *s.held
+			s.held = nil
+			if info, ok := s.deliver(fr, dst); ok {
 				return info, nil
 			}
 			continue
+		}
+		select {
+		case fr := <-s.slot:
+			if info, ok, err := s.handle(fr, dst); err != nil || ok {
+				return info, err
+			}
+			continue
 		default:
+		}
+		if err := s.takePending(); err != nil {
+			return capture.FrameInfo{}, err
 		}
 		wait := s.deadline.Sub(clk.Now())
 		if wait <= 0 {
@@ -494,14 +507,11 @@ func (s *Supervisor) Read(dst *gocv.Mat) (capture.FrameInfo, error) {
 		}
 		select {
 		case fr := <-s.slot:
-			info, ok := s.deliver(fr, dst)
-			if ok {
-				return info, nil
+			if info, ok, err := s.handle(fr, dst); err != nil || ok {
+				return info, err
 			}
 		case <-s.wake:
-			if err := s.takePending(); err != nil {
-				return capture.FrameInfo{}, err
-			}
+			// Back to the top: a frame sent before the loss goes first.
 		case <-clk.After(wait):
 			if s.deadline.After(clk.Now()) {
 				continue
@@ -511,6 +521,21 @@ func (s *Supervisor) Read(dst *gocv.Mat) (capture.FrameInfo, error) {
 			return capture.FrameInfo{}, io.EOF
 		}
 	}
+}
+
+// handle delivers fr unless it comes from a newer opening of the device
+// than the last frame and a loss is still unreported: then the loss is
+// returned first and fr is held for the next Read.
+func (s *Supervisor) handle(fr rawFrame, dst *gocv.Mat) (capture.FrameInfo, bool, error) {
+	if fr.gen > s.gen {
+		s.gen = fr.gen
+		if err := s.takePending(); err != nil {
+			s.held = &fr
+			return capture.FrameInfo{}, false, err
+		}
+	}
+	info, ok := s.deliver(fr, dst)
+	return info, ok, nil
 }
 
 // takePending returns the loss reported by the reader, if any.

@@ -221,6 +221,20 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 
 const maxPerBand = 8
 
+// crossing walks from the peak pk in direction dir (±1) to the first
+// pixel past level (in the stripe's sense sgn) and returns the
+// interpolated position of the crossing; limit bounds the walk.
+func crossing(p []float64, pk int, level, sgn float64, dir, limit int) float64 {
+	for i := pk; i != limit; i += dir {
+		j := i + dir
+		if sgn*p[j] < sgn*level {
+			u := (p[i] - level) / (p[i] - p[j])
+			return float64(i) + 0.5 + float64(dir)*u
+		}
+	}
+	return float64(limit) + 0.5
+}
+
 // addCandidate refines the ridge response at centre box [c0, c0+w) into a
 // candidate (half-height edges), confirms it with the Sauvola threshold,
 // and appends it to bc.
@@ -255,6 +269,20 @@ func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, 
 			eR = float64(i) + 0.5 + (half-p[i])/(p[i+1]-p[i])
 			break
 		}
+	}
+	// A marking has sharp edges; light and shade vary smoothly. Compare
+	// the widths at a quarter and at three quarters of the height: for tape
+	// (a plateau, slightly blurred) they differ by the blur, for a smooth
+	// band of light by about two thirds of its width. Reject when they
+	// differ by more than 3 working px plus 45 % of the half-height width.
+	lo0, hi0 := max(c0-f, 0), min(c0+w+f, n-1)
+	// Each side is measured against its own level (light may fall off
+	// across the stripe).
+	lvl := func(side, q float64) float64 { return side + q*(p[pk]-side) }
+	w25 := crossing(p, pk, lvl(mr, 0.25), sgn, +1, hi0) - crossing(p, pk, lvl(ml, 0.25), sgn, -1, lo0)
+	w75 := crossing(p, pk, lvl(mr, 0.75), sgn, +1, hi0) - crossing(p, pk, lvl(ml, 0.75), sgn, -1, lo0)
+	if w25-w75 > 3+0.45*(eR-eL) {
+		return bc
 	}
 	if eR-eL < 1 {
 		m := (eL + eR) / 2

@@ -37,10 +37,7 @@ type markGeom struct {
 // nearest end of a marked stretch: positive inside the mark, negative in a
 // gap, before FromM or after ToM.
 func (mg *markGeom) present(s float64) float64 {
-	d := math.Min(s-mg.from, mg.to-s)
-	for _, gp := range mg.m.Gaps {
-		d = math.Min(d, math.Max(gp.From-s, s-gp.To))
-	}
+	d := mg.laid(s)
 	if mg.m.DashM > 0 && mg.m.DashGapM > 0 {
 		p := mg.m.DashM + mg.m.DashGapM
 		ph := math.Mod(s-mg.from, p)
@@ -52,6 +49,17 @@ func (mg *markGeom) present(s float64) float64 {
 		} else {
 			d = math.Min(d, -math.Min(ph-mg.m.DashM, p-ph))
 		}
+	}
+	return d
+}
+
+// laid is like present but ignores dashes: the signed distance to the
+// nearest end of the stretch where the line exists at all (its dashes
+// included), which is what truth calls visible.
+func (mg *markGeom) laid(s float64) float64 {
+	d := math.Min(s-mg.from, mg.to-s)
+	for _, gp := range mg.m.Gaps {
+		d = math.Min(d, math.Max(gp.From-s, s-gp.To))
 	}
 	return d
 }

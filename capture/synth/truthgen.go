@@ -92,7 +92,7 @@ func (r *Renderer) truthAt(i int, st cartState) truth.Frame {
 	var inGap, atEnd bool
 	for k, y := range ys[:len(ys)-1] {
 		c := cr[k]
-		present := inView(c) && mg.present(c.s) >= 0
+		present := inView(c) && mg.laid(c.s) >= 0
 		if present {
 			f.Points = append(f.Points, [2]float64{c.x, y})
 		}

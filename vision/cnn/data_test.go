@@ -150,26 +150,28 @@ func TestDegradations(t *testing.T) {
 	})
 }
 
-// TestTrainLearns trains a tiny network on rendered scenes and expects the
-// validation loss to fall well below the loss of guessing uniformly over
-// the classes, ln(Cells+1), and the row accuracy to beat always guessing
-// the most common class.
+// TestTrainLearns trains a tiny network on rendered scenes and scores it
+// on 300 scenes it never saw: the loss must fall to under 0.7 of the loss
+// of guessing uniformly over the classes, ln(Cells+1), and the row
+// accuracy must beat always guessing the most common class by 0.1.
 func TestTrainLearns(t *testing.T) {
-	a := Arch{InW: 32, InH: 16, Conv: []int{6, 8}, Hidden: 24, Rows: 4, Cells: 8}
-	data, err := SceneSamples(a, 1200, 3)
+	a := Arch{InW: 32, InH: 16, Conv: []int{8, 8}, Hidden: 32, Rows: 4, Cells: 8}
+	data, err := SceneSamples(a, 1500, 3)
 	if err != nil {
 		t.Fatal(err)
 	}
+	test, train := data[:300], data[300:]
 	m, err := NewModel(a, NewRand(1))
 	if err != nil {
 		t.Fatal(err)
 	}
-	stats, err := Train(m, data, TrainConfig{Epochs: 12, Seed: 2, LR: 3e-3, Mirror: true})
+	before := Evaluate(m, test)
+	stats, err := Train(m, train, TrainConfig{Epochs: 15, Seed: 2, LR: 3e-3, Mirror: true})
 	if err != nil {
 		t.Fatal(err)
 	}
 	counts := make([]int, a.Classes())
-	for _, s := range data {
+	for _, s := range test {
 		for _, l := range s.Labels {
 			counts[l]++
 		}
@@ -178,15 +180,15 @@ func TestTrainLearns(t *testing.T) {
 	for _, c := range counts {
 		most = max(most, c)
 	}
-	base := float64(most) / float64(len(data)*a.Rows)
-	final := Evaluate(m, data[:200])
-	last := stats[len(stats)-1]
-	t.Logf("epochs %d, val loss %.3f, val acc %.3f, near %.3f, majority baseline %.3f", len(stats), last.Val.Loss, last.Val.RowAcc, last.Val.RowNear, base)
-	if uniform := math.Log(float64(a.Classes())); final.Loss > 0.6*uniform {
-		t.Errorf("loss %.3f, want below 0.6 × ln(%d) = %.3f", final.Loss, a.Classes(), 0.6*uniform)
+	base := float64(most) / float64(len(test)*a.Rows)
+	after := Evaluate(m, test)
+	t.Logf("%d epochs; unseen scenes: loss %.3f → %.3f, row accuracy %.3f → %.3f (within one cell %.3f), majority class %.3f",
+		len(stats), before.Loss, after.Loss, before.RowAcc, after.RowAcc, after.RowNear, base)
+	if uniform := math.Log(float64(a.Classes())); after.Loss > 0.7*uniform {
+		t.Errorf("loss %.3f, want below 0.7 × ln(%d) = %.3f", after.Loss, a.Classes(), 0.7*uniform)
 	}
-	if final.RowAcc < base+0.2 {
-		t.Errorf("row accuracy %.3f does not beat the majority class %.3f by 0.2", final.RowAcc, base)
+	if after.RowAcc < base+0.1 {
+		t.Errorf("row accuracy %.3f does not beat the majority class %.3f by 0.1", after.RowAcc, base)
 	}
 }
 

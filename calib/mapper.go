@@ -105,7 +105,9 @@ const MaxExtrapolation = 0.25
 // lookahead 0 uses the Mapper's. Measure does not retain points.
 //
 // The centreline is fitted on the floor as Y = a + b·X + c·X² (a straight
-// line for fewer than 6 points); the offset and heading are taken at
+// line for fewer than 6 points) by least squares weighted towards the
+// look-ahead (Gaussian weights of width FitWindow, so bends far away do
+// not bend the fit there); the offset and heading are taken at
 // X = lookahead. OK is false when fewer than 2 points reach the floor, the
 // stripe does not run forward, the look-ahead lies more than
 // MaxExtrapolation beyond the seen part, or the width differs from the
@@ -140,8 +142,8 @@ func (m *Mapper) Measure(points []Pt, refRow, widthPx float64, lookahead Millime
 		out.Reason = "the stripe does not run forward on the floor"
 		return out, nil
 	}
-	a, b, c := fitPoly(fl)
 	L := float64(lookahead)
+	a, b, c := fitPoly(fl, L, FitWindow)
 	out.OffsetMM = Millimetres(a + b*L + c*L*L)
 	out.HeadingDeg = Degrees(math.Atan(b+2*c*L) * 180 / math.Pi)
 	out.OK = true
@@ -205,14 +207,33 @@ func (m *Mapper) width(points []Pt, refRow, widthPx, b, c float64) (float64, boo
 	return math.Abs((e2.X-e1.X)*fx + (e2.Y-e1.Y)*fy), true
 }
 
-// fitPoly fits Y = a + bX + cX² by least squares (c = 0 below 6 points),
-// on X centred and scaled for conditioning.
-func fitPoly(p []Pt) (a, b, c float64) {
-	var mx float64
-	for _, q := range p {
-		mx += q.X
+// FitWindow is the width (1 sigma) of Measure's weighting around the
+// look-ahead.
+const FitWindow Millimetres = 300
+
+// fitPoly fits Y = a + bX + cX² by least squares weighted by a Gaussian of
+// width sigma around X = at (c = 0 below 6 points), on X centred and
+// scaled for conditioning. When the weights near at are too thin (under 3
+// points' worth) it fits all points alike.
+func fitPoly(p []Pt, at float64, sigma Millimetres) (a, b, c float64) {
+	wt := make([]float64, len(p))
+	var sw float64
+	for i, q := range p {
+		d := (q.X - at) / float64(sigma)
+		wt[i] = math.Exp(-d * d / 2)
+		sw += wt[i]
 	}
-	mx /= float64(len(p))
+	if sw < 3 {
+		for i := range wt {
+			wt[i] = 1
+		}
+		sw = float64(len(p))
+	}
+	var mx float64
+	for i, q := range p {
+		mx += wt[i] * q.X
+	}
+	mx /= sw
 	var sc float64
 	for _, q := range p {
 		sc = math.Max(sc, math.Abs(q.X-mx))
@@ -223,9 +244,9 @@ func fitPoly(p []Pt) (a, b, c float64) {
 	// Normal equations in u = (X − mx)/sc.
 	var S [5]float64
 	var T [3]float64
-	for _, q := range p {
+	for k, q := range p {
 		u := (q.X - mx) / sc
-		pw := 1.0
+		pw := wt[k]
 		for i := 0; i < 5; i++ {
 			S[i] += pw
 			if i < 3 {

@@ -72,6 +72,7 @@ func badFiles(t *testing.T) map[string]string {
 		"zero-byte": filepath.Join(dir, "zero.avi"),
 		"not video": filepath.Join(dir, "text.avi"),
 		"truncated": filepath.Join(dir, "cut.avi"),
+		"good":      clip,
 	}
 	os.WriteFile(files["zero-byte"], nil, 0o644)
 	os.WriteFile(files["not video"], []byte("aisle C stripe notes\n"), 0o644)
@@ -85,11 +86,19 @@ func TestBadFiles(t *testing.T) {
 	files := badFiles(t)
 	out := t.TempDir()
 	commands := map[string][]string{
-		"replay": {"replay", "-out", out, "FILE"},
-		"verify": {"verify", "FILE"},
+		"replay":       {"replay", "-out", out, "FILE"},
+		"replay calib": {"replay", "-out", out, "-calib", "FILE", files["good"]},
+		"run":          {"run", "-speaker=false", "-require-alarm=false", "-track", filepath.Join(out, "run.ndjson"), "-source", "FILE"},
+		"verify":       {"verify", "FILE"},
+		"calib lens":   {"calib", "lens", "-o", filepath.Join(out, "c.json"), "FILE"},
+		"calib floor":  {"calib", "floor", "-calib", "FILE", "-height", "500", "-pitch", "30"},
+		"train site":   {"train", "-o", filepath.Join(out, "m.onnx"), "-epochs", "1", "-frames", "8", "-site", "FILE"},
 	}
 	for cname, args := range commands {
 		for fname, path := range files {
+			if fname == "good" {
+				continue
+			}
 			t.Run(cname+"/"+fname, func(t *testing.T) {
 				a := make([]string, len(args))
 				for i, s := range args {

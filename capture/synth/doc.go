@@ -1,0 +1,77 @@
+// Package synth is hewline's built-in synthetic floor scene: a renderer of
+// a camera on a moving cart looking at a floor with a marked stripe, with
+// ground truth for every frame computed from the same geometry.
+//
+// # Coordinate frames
+//
+// World: X and Y on the floor plane z = 0, Z up, metres; headings are
+// counter-clockwise from +X seen from above. A Path is a tangent-continuous
+// curve of straight segments and circular arcs parametrised by arc length
+// s, so position, tangent and curvature are exact everywhere (Segment
+// curvature is positive for a right turn).
+//
+// Cart: follows the stripe's path at Motion.SpeedMps with a sideways weave
+// e(s) = WeaveAmpM·sin(2π s/WeaveWavelengthM + phase) (positive to the
+// left), its heading along the tangent of its weaving track.
+//
+// Camera: mounted AheadM ahead of the cart point, HeightM above the floor,
+// pitched PitchDeg down, optionally rolled and yawed, with vibration
+// (Motion.ShakeDeg). Its frame is OpenCV's: x right, y down, z along the
+// optical axis. Intrinsics Fx, Fy, Cx, Cy in pixels, pixel (i, j) centred
+// at (i, j); radial distortion x_d = x·(1 + K1·r² + K2·r⁴) on normalised
+// coordinates, the same model as OpenCV's k1, k2.
+//
+// # Rendering
+//
+// Each pixel's ray is undistorted once per Renderer; per frame it is only
+// rotated and translated with the camera and intersected with the floor.
+// Rays that miss the floor, or meet it beyond Backdrop.FarM, see a wall
+// with rack uprights. The floor point is shaded from the floor (colour,
+// mip-mapped concrete mottling, tiles and grout), the marks (distance to
+// each mark's centreline along its normal, with gaps, dashes, wear and the
+// end of the line along s), the light (shadow polygons, fixed or moving,
+// with penumbrae; Blinn–Phong highlights of ceiling lamps on a glossy
+// floor, which move with the camera), the exposure (gain, gain steps,
+// flicker through a rolling shutter) and sensor noise. Edges are
+// anti-aliased analytically: the floor displacement between neighbouring
+// pixels gives each edge's width in pixels and the pixel's coverage is a
+// one-pixel ramp across it, so rendered widths and centres match the
+// truth. Motion blur averages several instants of the exposure. All noise
+// is a hash of position, seed and frame: the same Scenario gives the same
+// bytes on any number of cores.
+//
+// # Truth
+//
+// For each frame (at the middle of the exposure) the stripe's centreline
+// and edges are sampled every 5 mm, projected through the same camera model
+// (distortion included) and intersected with image rows. Points holds one
+// [x, y] per even row from the bottom up, the first crossing along the path,
+// only where the line is laid (not in a gap, not past its end) and inside
+// the image; dashes count as laid. OffsetPx, HeadingDeg and WidthPx are
+// taken at the reference row 0.8·Height with package vision's conventions
+// (OffsetPx = x − W/2). Visible is true when the laid line crosses at least
+// half the sampled rows of the lower half of the image. OffsetM and
+// HeadingFloorDeg are measured in the camera's floor frame (origin under
+// the optical centre, forward along the optical axis's floor projection)
+// where the line crosses LookaheadM ahead; positive is right. Frames where
+// a gap or the end of the line is in the near half are tagged "gap" or
+// "end"; each scenario adds its own condition tags.
+//
+// # Scenarios
+//
+// Names lists them; Lookup returns one. All are 640×480 at 30 fps, 300
+// frames, variations of "weave" (the demo: even light, concrete, yellow
+// 50 mm tape, weaving at 1 m/s): gap (a 1.6 m gap, then the end of the
+// line), curves (radius down to 1.5 m), rack-shadows, walker (a moving
+// shadow), glare, worn, floor-marks (tyre marks, joints, a crack), tiles,
+// dim, flicker, exposure-jumps, shake (2 m/s with vibration and blur),
+// fisheye, narrow (5 mm line, 3–5 px), low-camera (grazing, horizon in
+// view), branch (a branch and a crossing bar), dashed, tape-wide,
+// tape-white, tape-blue, tape-green, tape-black (dark on light) and
+// dark-floor. Scenario.Resized gives any other resolution. The warehouse is
+// invented; colours are chosen by eye, not measured.
+//
+// Not modelled yet: lane mode (two boundary lines), JPEG blocking,
+// auto-exposure drift, rolling-shutter geometry (only its flicker bands),
+// walls and racks as 3-D geometry.
+package synth

@@ -358,6 +358,15 @@ func runCalibFloor(ctx context.Context, args []string, stdout, stderr io.Writer)
 			fmt.Fprintln(stdout, "4 marks fit exactly, so there is no error estimate: add a fifth mark to check the calibration")
 		} else {
 			fmt.Fprintf(stdout, "floor error: rms %.1f mm, worst %.1f mm\n", rep.RMSMM, rep.MaxErrMM)
+			worst := 0
+			for i, p := range rep.Points {
+				if p.FloorErrMM > rep.Points[worst].FloorErrMM {
+					worst = i
+				}
+			}
+			if rep.MaxErrMM > 10 {
+				fmt.Fprintf(stdout, "warning: mark %d is %.0f mm off the fit: measure it again (and check it is on the floor, not on a raised edge)\n", worst+1, rep.MaxErrMM)
+			}
 		}
 	}
 	// Check the bird's-eye frame before writing anything.

@@ -10,15 +10,16 @@ import (
 	"time"
 
 	"github.com/hewline/hewline/capture"
+	"github.com/hewline/hewline/vision"
 	"github.com/hewline/hewline/vision/cnn"
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 )
 
 // siteLabeler makes the detector that labels site footage for
-// "hewline train -site". It is nil until the classical detector is wired
-// in; -site then refuses to run rather than train on no labels.
-var siteLabeler func() (cnn.Labeler, error)
+// "hewline train -site": the classical detector with its default
+// settings. When nil, -site refuses to run rather than train on no labels.
+var siteLabeler = func() (cnn.Labeler, error) { return vision.NewClassical(vision.DefaultConfig()) }
 
 type listFlag []string
 

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/hewline/hewline/capture/synth"
 	"github.com/hewline/hewline/vision/cnn"
 )
 
@@ -56,12 +57,37 @@ func TestTrainWritesModel(t *testing.T) {
 }
 
 func TestTrainSiteNeedsLabeller(t *testing.T) {
-	if siteLabeler != nil {
-		t.Skip("a labeller is wired in")
-	}
+	saved := siteLabeler
+	siteLabeler = nil
+	defer func() { siteLabeler = saved }()
 	var out, errb bytes.Buffer
 	code := run(context.Background(), []string{"train", "-o", filepath.Join(t.TempDir(), "m.onnx"), "-frames", "10", "-synth", "0", "-site", "clip.mkv"}, &out, &errb)
 	if code != 1 || !strings.Contains(errb.String(), "no classical detector") {
 		t.Errorf("exit %d, stderr %q", code, errb.String())
+	}
+}
+
+// TestTrainOnSiteClip renders a short clip of the "weave" scenario to a
+// video file, as a site recording would be, and trains on it alone: the
+// classical detector must label some of its frames.
+func TestTrainOnSiteClip(t *testing.T) {
+	dir := t.TempDir()
+	sc, err := synth.Lookup("weave")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc.Frames, sc.FPS = 30, 10
+	clip := filepath.Join(dir, "aisle.avi")
+	if err := synth.WriteClip(sc, clip, filepath.Join(dir, "aisle.truth.ndjson")); err != nil {
+		t.Fatal(err)
+	}
+	p := filepath.Join(dir, "m.onnx")
+	var out, errb bytes.Buffer
+	code := run(context.Background(), []string{"train", "-o", p, "-frames", "0", "-synth", "0", "-site", clip, "-site-every", "3", "-epochs", "1"}, &out, &errb)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	if !strings.Contains(errb.String(), "30 frames, 10 labelled") {
+		t.Errorf("log %q, want all 10 sampled frames labelled", errb.String())
 	}
 }

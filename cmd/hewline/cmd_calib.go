@@ -32,7 +32,12 @@ const calibSynopsis = `lens|floor [options] ...
 
   hewline calib lens [-board 9x6] [-square 25] [-o FILE] IMAGES...|FOLDER|CLIP
   hewline calib floor -calib FILE (-points MARKS.json | -board 9x6 -square 25 -at X,Y IMAGE | -height MM -pitch DEG) [-birdseye OUT.png [-frame IMAGE]]
-Run "hewline calib lens -h" or "hewline calib floor -h" for each one's options.`
+Run "hewline calib lens -h" or "hewline calib floor -h" for each one's options.
+
+Floor positions are mm from the vehicle's reference point: FORWARD along its
+axis, RIGHT to its right. A marks file (-points) is JSON:
+  {"image_size": [640, 480],
+   "points": [{"image_px": [211.4, 310.5], "floor_mm": [800, -300]}, ...]}`
 
 func runCalib(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	if len(args) == 0 {
@@ -211,7 +216,7 @@ type marksFile struct {
 }
 
 func runCalibFloor(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("calib", "floor -calib FILE (-points MARKS.json | -board 9x6 -square 25 -at X,Y IMAGE | -height MM -pitch DEG) [-birdseye OUT.png [-frame IMAGE]]", stderr)
+	fs := newFlags("calib", "floor -calib FILE (-points MARKS.json | -board 9x6 -square 25 -at X,Y IMAGE | -height MM -pitch DEG) [-birdseye OUT.png [-frame IMAGE]]\n\nmarks file: {\"image_size\": [W, H], \"points\": [{\"image_px\": [x, y], \"floor_mm\": [forward, right]}, ...]}", stderr)
 	calibPath := fs.String("calib", "hewline.calib.json", "calibration file to read (its lens) and to write the floor into")
 	points := fs.String("points", "", "marks file (JSON): image pixels and measured floor positions of 4 or more taped marks")
 	boardS := fs.String("board", "", "chessboard laid flat, inner corners COLSxROWS; give the frame IMAGE as the argument")

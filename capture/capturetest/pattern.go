@@ -135,3 +135,19 @@ func PatternBytes(f v4l2.Format, k int) []byte {
 	}
 	return EncodeMJPEG(img)
 }
+
+// PatternMat returns Pattern(size, k) as a new 8-bit BGR Mat; the caller
+// owns it and must Close it.
+func PatternMat(size image.Point, k int) gocv.Mat {
+	img := Pattern(size, k)
+	b := make([]byte, 0, size.X*size.Y*3)
+	for i := 0; i < len(img.Pix); i += 4 {
+		b = append(b, img.Pix[i+2], img.Pix[i+1], img.Pix[i])
+	}
+	m, err := gocv.NewMatFromBytes(size.Y, size.X, gocv.MatTypeCV8UC3, b)
+	if err != nil {
+		panic(fmt.Sprintf("capturetest: pattern Mat: %v", err)) // sizes are ours
+	}
+	defer m.Close()
+	return m.Clone()
+}

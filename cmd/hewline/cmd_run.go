@@ -49,6 +49,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	forDur := fs.Duration("for", 0, "stop after this long (0 = until interrupted or the source ends)")
 	vibSerial := fs.String("vibrate-serial", "", "vibration cues to a motor driver on serial `PORT` (line protocol \"L n R n\")")
 	vibGPIO := fs.String("vibrate-gpio", "", "vibration cues on two GPIO `PINS` \"LEFT,RIGHT\" (Linux GPIO character device)")
+	cueMM := fs.Float64("cue-full-scale-mm", 0, "with -calib: the floor offset in `MM` that gives the strongest cue (0 = a quarter of the frame width in pixels)")
 	watchdog := fs.Duration("watchdog", 20*time.Millisecond, "tick the fail-safe this often when no frame comes")
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
@@ -237,7 +238,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		go vib.Run(runCtx, vt.C, func(err error) { fmt.Fprintf(stderr, "hewline run: VIBRATION CUES FAILED: %v\n", err) })
 	}
 	lat := &latencySink{out: stdout, budget: frameBudget(info.FPS), every: time.Minute}
-	sinks := []pipeline.Sink{&pipeline.LogSink{W: lw}, &pipeline.AudioSink{Player: player, Live: true}, lat}
+	sinks := []pipeline.Sink{&pipeline.LogSink{W: lw}, &pipeline.AudioSink{Player: player, Live: true, FullScaleMM: *cueMM}, lat}
 	if sender != nil {
 		sinks = append(sinks, &pipeline.StreamSink{Sender: sender})
 	}

@@ -23,7 +23,10 @@ type AudioSink struct {
 	// heading's full scale is FullScaleDeg. Defaults: a quarter of the
 	// frame width, 20°.
 	FullScalePx, FullScaleDeg float64
-	Live                      bool
+	// FullScaleMM, when set and the frame has floor values, sets the cue
+	// in millimetres on the floor instead (e.g. 150 mm = full cue).
+	FullScaleMM float64
+	Live        bool
 	last                      time.Duration
 }
 
@@ -41,6 +44,10 @@ func (s *AudioSink) Cue(r *Result) audio.Cue {
 	if c.Guide {
 		c.Offset = clamp1(r.Cue.Offset / fs)
 		c.Heading = clamp1(r.Cue.Heading / fd)
+		if s.FullScaleMM > 0 && r.Floor != nil {
+			c.Offset = clamp1(r.Floor.OffsetMM / s.FullScaleMM)
+			c.Heading = clamp1(r.Floor.HeadingDeg / fd)
+		}
 	}
 	return c
 }

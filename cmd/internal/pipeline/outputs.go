@@ -27,7 +27,7 @@ type AudioSink struct {
 	// in millimetres on the floor instead (e.g. 150 mm = full cue).
 	FullScaleMM float64
 	Live        bool
-	last                      time.Duration
+	last        time.Duration
 }
 
 // Cue converts a frame's decision to the audio cue.

@@ -9,6 +9,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/hewline/hewline/audio"
 	"github.com/hewline/hewline/capture/v4l2"
 	"github.com/hewline/hewline/vision"
 )
@@ -216,7 +217,9 @@ func (s *Site) check(failed map[string]bool) []Problem {
 
 	// cues
 	cu := s.Cues
-	if err := cu.Sound.Validate(); err != nil {
+	if m := cu.Sound.Mode; m != audio.ModeTone && m != audio.ModePulse {
+		c.bad("cues.sound.mode", "%q is not a cue mode (want %s or %s)", m, audio.ModeTone, audio.ModePulse)
+	} else if err := cu.Sound.Validate(); err != nil {
 		c.bad("cues.sound", "%s", strings.TrimPrefix(oneLine(err), "audio: bad configuration: "))
 	}
 	if cu.VibrateGPIO != "" {

@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"io"
-	"os"
 	"time"
 
 	"github.com/hewline/hewline/guidance/report"
@@ -32,23 +31,19 @@ func runReport(_ context.Context, args []string, stdout, stderr io.Writer) error
 		return usagef("no log given")
 	}
 	var in []report.Input
-	for _, p := range fs.Args() {
-		f, err := os.Open(p)
-		if err != nil {
-			return err
+	for _, set := range tracklog.GroupSets(fs.Args()) {
+		name := set[0]
+		if len(set) > 1 {
+			name = fmt.Sprintf("%s (+%d rotated files)", set[0], len(set)-1)
 		}
-		l, err := tracklog.Read(f)
-		f.Close()
-		if err == nil && l.Summary == nil {
-			err = fmt.Errorf("%d frames verified but no summary line: the run ended without closing the log", len(l.Records))
-		}
+		l, err := tracklog.ReadSet(set)
 		if err != nil {
 			if !*allowBroken {
-				return fmt.Errorf("%s: %w (use -allow-broken to report on it anyway)", p, err)
+				return fmt.Errorf("%w (use -allow-broken to report on it anyway)", err)
 			}
-			fmt.Fprintf(stderr, "hewline report: WARNING: %s fails verification: %v\n", p, err)
+			fmt.Fprintf(stderr, "hewline report: WARNING: fails verification: %v\n", err)
 		}
-		in = append(in, report.Input{Path: p, Log: l, Broken: err})
+		in = append(in, report.Input{Path: name, Log: l, Broken: err})
 	}
 	r, err := report.Build(in, report.Options{Title: *title, Generated: time.Now(), NoThumbs: *noThumbs})
 	if err != nil {

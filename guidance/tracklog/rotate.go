@@ -1,7 +1,9 @@
 package tracklog
 
 import (
+	"bufio"
 	"encoding/hex"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
@@ -241,4 +243,71 @@ func readSet(paths []string) (*Log, int, error) {
 		prevChain = hex.EncodeToString(l.lastChain[:])
 	}
 	return all, total, nil
+}
+
+// GroupSets sorts paths into logs: each file whose header names another
+// given file as its PrevFile follows that file, whatever order the paths
+// came in (a shell glob puts "shift.track-0002.ndjson" before
+// "shift.track.ndjson"). A file that starts a log, or whose previous file
+// is not given, begins a group; groups keep the order in which their
+// first files were given. A file that cannot be read stands alone (it
+// fails when read). Pass each group to ReadSet or VerifySet.
+func GroupSets(paths []string) [][]string {
+	prev := make([]string, len(paths))
+	byBase := map[string]int{}
+	for i, p := range paths {
+		prev[i] = prevFileOf(p)
+		if _, dup := byBase[filepath.Base(p)]; !dup {
+			byBase[filepath.Base(p)] = i
+		}
+	}
+	next := map[int]int{}
+	isHead := make([]bool, len(paths))
+	for i := range paths {
+		j, ok := byBase[prev[i]]
+		if _, taken := next[j]; prev[i] == "" || !ok || j == i || taken {
+			isHead[i] = true
+			continue
+		}
+		next[j] = i
+	}
+	used := make([]bool, len(paths))
+	var sets [][]string
+	for i := range paths {
+		if !isHead[i] {
+			continue
+		}
+		var g []string
+		for k, ok := i, true; ok && !used[k]; k, ok = next[k] {
+			used[k] = true
+			g = append(g, paths[k])
+		}
+		sets = append(sets, g)
+	}
+	for i, p := range paths { // left in a cycle: each alone
+		if !used[i] {
+			sets = append(sets, []string{p})
+		}
+	}
+	return sets
+}
+
+// prevFileOf returns the PrevFile of p's header, or "".
+func prevFileOf(p string) string {
+	f, err := os.Open(p)
+	if err != nil {
+		return ""
+	}
+	defer f.Close()
+	line, err := bufio.NewReaderSize(f, 1<<16).ReadBytes('\n')
+	if err != nil {
+		return ""
+	}
+	var h struct {
+		PrevFile string `json:"prev_file"`
+	}
+	if json.Unmarshal(line, &h) != nil {
+		return ""
+	}
+	return h.PrevFile
 }

@@ -145,3 +145,25 @@ func TestVerifySetSingleLog(t *testing.T) {
 		t.Fatalf("single log: %d lines, %v", n, err)
 	}
 }
+
+func TestGroupSets(t *testing.T) {
+	dir := t.TempDir()
+	files := writeRotated(t, dir, 100, tracklog.Rotation{MaxSpan: time.Second})
+	other := filepath.Join(dir, "other.ndjson")
+	os.WriteFile(other, sample(t), 0o644)
+	// Glob order: "-0002" sorts before ".ndjson".
+	in := []string{files[1], files[2], files[3], other, files[0]}
+	got := tracklog.GroupSets(in)
+	want := [][]string{{other}, files}
+	if len(got) != 2 || strings.Join(got[0], ",") != strings.Join(want[0], ",") || strings.Join(got[1], ",") != strings.Join(want[1], ",") {
+		t.Fatalf("GroupSets = %v, want %v", got, want)
+	}
+	// A missing middle file splits the set; the first part then fails.
+	got = tracklog.GroupSets([]string{files[0], files[1], files[3]})
+	if len(got) != 2 || len(got[0]) != 2 || got[1][0] != files[3] {
+		t.Fatalf("with a gap: %v", got)
+	}
+	if _, err := tracklog.VerifySet(got[0]); err == nil {
+		t.Error("the part before the gap verified as complete")
+	}
+}

@@ -2,6 +2,7 @@ package report_test
 
 import (
 	"bytes"
+	"compress/gzip"
 	"image"
 	"image/color"
 	"image/jpeg"
@@ -280,5 +281,55 @@ func TestBrokenLogIsFlagged(t *testing.T) {
 	}
 	if !strings.Contains(out.String(), `id="broken"`) || !strings.Contains(out.String(), "torn last line") {
 		t.Error("the report does not say loudly that the log failed")
+	}
+}
+
+// TestThumbsBadFiles: files that are not video give an error or no
+// thumbnails, never a crash.
+func TestThumbsBadFiles(t *testing.T) {
+	dir := t.TempDir()
+	junk := filepath.Join(dir, "junk.avi")
+	os.WriteFile(junk, []byte("RIFF\x00\x00\x00\x00AVI LIST not really"), 0o644)
+	clip := filepath.Join(dir, "short.avi")
+	writeClip(t, clip, 5)
+	b, _ := os.ReadFile(clip)
+	cut := filepath.Join(dir, "cut.avi")
+	os.WriteFile(cut, b[:len(b)/2], 0o644)
+	for name, p := range map[string]string{"junk": junk, "missing": filepath.Join(dir, "none.avi"), "cut": cut} {
+		th, err := report.Thumbs(p, []int{0, 3, 100, -1})
+		if err == nil && (th[2] != nil || th[3] != nil) {
+			t.Errorf("%s: thumbnails for frames outside the clip", name)
+		}
+	}
+	th, err := report.Thumbs(clip, []int{4, 5})
+	if err != nil || th[0] == nil || th[1] != nil {
+		t.Errorf("short clip: %v, thumbs present %v %v", err, th[0] != nil, th[1] != nil)
+	}
+}
+
+func BenchmarkReport(b *testing.B) {
+	f, _ := os.Open("testdata/gap.track.ndjson.gz")
+	defer f.Close()
+	var l *tracklog.Log
+	{
+		zr, err := gzip.NewReader(f)
+		if err != nil {
+			b.Fatal(err)
+		}
+		l, err = tracklog.Read(zr)
+		if err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		r, err := report.Build([]report.Input{{Path: "gap", Log: l}}, report.Options{NoThumbs: true})
+		if err != nil {
+			b.Fatal(err)
+		}
+		var out bytes.Buffer
+		if err := r.WriteHTML(&out); err != nil {
+			b.Fatal(err)
+		}
 	}
 }

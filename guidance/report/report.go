@@ -42,6 +42,9 @@ type Report struct {
 	bins      []int
 }
 
+// MaxThumbs caps the thumbnails read per log (the first losses get them).
+const MaxThumbs = 200
+
 // Bins is the number of bins of the confidence histogram.
 const Bins = 20
 
@@ -65,9 +68,9 @@ func Build(in []Input, opt Options) (*Report, error) {
 		s := Compute(filepath.Base(x.Path), x.Log)
 		if !opt.NoThumbs && len(s.Losses) > 0 {
 			if src := FindSource(x.Path, x.Log.Header.Source); src != "" {
-				frames := make([]int, len(s.Losses))
-				for i, l := range s.Losses {
-					frames[i] = l.StartFrame
+				frames := make([]int, min(len(s.Losses), MaxThumbs))
+				for i := range frames {
+					frames[i] = s.Losses[i].StartFrame
 				}
 				if th, err := Thumbs(src, frames); err == nil {
 					for i := range th {

@@ -333,3 +333,40 @@ func BenchmarkReport(b *testing.B) {
 		}
 	}
 }
+
+// TestLongLogPlotIsDecimated: an eight-minute log draws at most two points
+// per pixel column and keeps a one-frame spike.
+func TestLongLogPlotIsDecimated(t *testing.T) {
+	l := &tracklog.Log{Header: tracklog.Header{Width: 640, Height: 480, FPS: 30}}
+	for i := 0; i < 15000; i++ {
+		r := tracklog.Record{Frame: i, T: float64(i) / 30, Tracking: i < 14000, State: "holding", Confidence: 0.8}
+		if i == 12345 {
+			r.OffsetPx = 300
+		}
+		l.Records = append(l.Records, r)
+	}
+	r, err := report.Build([]report.Input{{Path: "long", Log: l}}, report.Options{NoThumbs: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out bytes.Buffer
+	if err := r.WriteHTML(&out); err != nil {
+		t.Fatal(err)
+	}
+	m := regexp.MustCompile(`(?s)<svg id="plot-offset-1".*?class="series"[^>]* d="([^"]*)"`).FindStringSubmatch(out.String())
+	if m == nil {
+		t.Fatal("no offset path")
+	}
+	pts := strings.Count(m[1], "M") + strings.Count(m[1], "L")
+	if pts > 2*900 || pts < 500 {
+		t.Errorf("%d points drawn for 15000 frames", pts)
+	}
+	// Offset 300 of ±320 maps to y = 184 − (300+320)/640·164 ≈ 25.1 (the
+	// plot's axis from 20 to 184 px).
+	if !strings.Contains(m[1], " 25.1 ") {
+		t.Error("the one-frame spike was lost")
+	}
+	if strings.Count(m[1], "M") != 1 {
+		t.Errorf("%d pen-downs, want 1 (tracking ends once)", strings.Count(m[1], "M"))
+	}
+}

@@ -91,21 +91,59 @@ func seriesSVG(id, title, unit string, l *tracklog.Log, alarms []Period, lo, hi 
 	fmt.Fprintf(&b, `<text x="%d" y="%d" text-anchor="middle">time (s)</text>`, (svgW+padL)/2, svgH-4)
 	fmt.Fprintf(&b, `<text x="12" y="%d" transform="rotate(-90 12 %d)" text-anchor="middle">%s</text></g>`,
 		svgH/2, svgH/2, html.EscapeString(unit))
-	// The data, one path with a move wherever a value is missing.
+	// The data, one path with a move wherever a value is missing. A long
+	// log is drawn as the minimum and maximum of each pixel column so
+	// that the page stays small and no spike is lost.
 	b.WriteString(`<path class="series" fill="none" stroke="#1f5fa8" stroke-width="1.3" d="`)
 	pen := false
-	for i := range rs {
-		v, ok := get(&rs[i])
-		if !ok {
-			pen = false
-			continue
-		}
+	point := func(px, v float64) {
 		cmd := "L"
 		if !pen {
 			cmd = "M"
 		}
-		fmt.Fprintf(&b, "%s%.1f %.1f ", cmd, x(rs[i].T), y(v))
+		fmt.Fprintf(&b, "%s%.1f %.1f ", cmd, px, y(v))
 		pen = true
+	}
+	cols := svgW - padL - padR
+	if len(rs) <= 2*cols {
+		for i := range rs {
+			v, ok := get(&rs[i])
+			if !ok {
+				pen = false
+				continue
+			}
+			point(x(rs[i].T), v)
+		}
+	} else {
+		col, lo, hi, have := -1, 0.0, 0.0, false
+		emit := func() {
+			if have {
+				px := float64(padL + col)
+				point(px, lo)
+				if hi != lo {
+					point(px, hi)
+				}
+			}
+		}
+		for i := range rs {
+			c := int(x(rs[i].T)) - padL
+			if c != col {
+				emit()
+				col, have = c, false
+			}
+			v, ok := get(&rs[i])
+			if !ok {
+				emit()
+				have, pen = false, false
+				continue
+			}
+			if !have {
+				lo, hi, have = v, v, true
+			} else {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		emit()
 	}
 	b.WriteString(`"/></svg>`)
 	return b.String()

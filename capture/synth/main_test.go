@@ -41,3 +41,28 @@ func BenchmarkRender640(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkRenderScenario measures one frame of each costlier scenario.
+func BenchmarkRenderScenario(b *testing.B) {
+	for _, name := range []string{"rack-shadows", "glare", "shake", "walker"} {
+		b.Run(name, func(b *testing.B) {
+			sc, err := Lookup(name)
+			if err != nil {
+				b.Fatal(err)
+			}
+			sc.Frames = 1 << 30
+			r, err := New(sc)
+			if err != nil {
+				b.Fatal(err)
+			}
+			m := gocv.NewMat()
+			defer m.Close()
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				if _, err := r.Read(&m); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
+}

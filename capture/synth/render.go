@@ -83,18 +83,22 @@ func newMarkGeom(m Mark, seed uint64) markGeom {
 // not safe for concurrent use. It owns its buffers; Read copies into the
 // caller's Mat.
 type Renderer struct {
-	sc      Scenario
-	w, h    int
-	rayA    []float64 // per-pixel undistorted normalised ray, camera frame
-	rayB    []float64
-	rayOK   []bool
-	px, py  []float64 // per-frame floor points
-	kind    []uint8
-	acc     []float32 // BGR accumulator in [0, 1]
-	buf     []byte    // BGR 8-bit frame
-	marks   []markGeom
-	stripe  markGeom
-	tex     *texture
+	sc     Scenario
+	w, h   int
+	rayA   []float64 // per-pixel undistorted normalised ray, camera frame
+	rayB   []float64
+	rayOK  []bool
+	px, py []float64 // per-frame floor points
+	kind   []uint8
+	acc    []float32 // BGR accumulator in [0, 1]
+	buf    []byte    // BGR 8-bit frame
+	marks  []markGeom
+	stripe markGeom
+	tex    *texture
+	// shadowBox[i] is the bounding box of Light.Shadows[i] at t = 0
+	shadowBox [][4]float64
+	// specMin is the half-vector cosine below which a highlight is < 1e-3
+	specMin float64
 	shake   [6]float64
 	next    int
 	last    truth.Frame
@@ -173,6 +177,12 @@ func New(sc Scenario) (*Renderer, error) {
 		r.marks = append(r.marks, newMarkGeom(m, splitmix64(seed+uint64(i)+100)))
 	}
 	r.stripe = newMarkGeom(sc.Stripe, splitmix64(seed+7))
+	if sc.Floor.Shininess > 0 {
+		r.specMin = math.Exp(math.Log(1e-3) / sc.Floor.Shininess)
+	}
+	for _, sh := range sc.Light.Shadows {
+		r.shadowBox = append(r.shadowBox, polyBox(sh.Poly))
+	}
 	r.tex = newTexture(splitmix64(seed+1), 256, 0.006)
 	for i := range r.shake {
 		r.shake[i] = 2 * math.Pi * lattice(seed, 11, int64(i))
@@ -449,7 +459,11 @@ func (r *Renderer) shadowLight(x, y, t, fp float64) float64 {
 		sh := &r.sc.Light.Shadows[si]
 		qx, qy := x-sh.VX*t, y-sh.VY*t
 		soft := math.Max(sh.SoftM, fp)
-		d := polySignedDist(sh.Poly, qx, qy, soft)
+		b := &r.shadowBox[si]
+		if qx < b[0]-soft || qx > b[2]+soft || qy < b[1]-soft || qy > b[3]+soft {
+			continue
+		}
+		d := polySignedDist(sh.Poly, qx, qy)
 		if d <= -soft {
 			continue
 		}
@@ -458,18 +472,19 @@ func (r *Renderer) shadowLight(x, y, t, fp float64) float64 {
 	return l
 }
 
-// polySignedDist is the distance from (x, y) to the polygon's boundary,
-// positive inside. Points farther than lim outside its bounding box return
-// −lim early.
-func polySignedDist(poly [][2]float64, x, y, lim float64) float64 {
-	minX, minY, maxX, maxY := math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)
+// polyBox is the bounding box of a polygon: min x, min y, max x, max y.
+func polyBox(poly [][2]float64) [4]float64 {
+	b := [4]float64{math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)}
 	for _, v := range poly {
-		minX, maxX = math.Min(minX, v[0]), math.Max(maxX, v[0])
-		minY, maxY = math.Min(minY, v[1]), math.Max(maxY, v[1])
+		b[0], b[2] = math.Min(b[0], v[0]), math.Max(b[2], v[0])
+		b[1], b[3] = math.Min(b[1], v[1]), math.Max(b[3], v[1])
 	}
-	if x < minX-lim || x > maxX+lim || y < minY-lim || y > maxY+lim {
-		return -lim
-	}
+	return b
+}
+
+// polySignedDist is the distance from (x, y) to the polygon's boundary,
+// positive inside.
+func polySignedDist(poly [][2]float64, x, y float64) float64 {
 	inside := false
 	best := math.Inf(1)
 	n := len(poly)
@@ -480,12 +495,13 @@ func polySignedDist(poly [][2]float64, x, y, lim float64) float64 {
 		}
 		ex, ey := q[0]-p[0], q[1]-p[1]
 		tt := clamp01(((x-p[0])*ex + (y-p[1])*ey) / (ex*ex + ey*ey))
-		best = math.Min(best, hypot2(x-p[0]-tt*ex, y-p[1]-tt*ey))
+		dx, dy := x-p[0]-tt*ex, y-p[1]-tt*ey
+		best = fmin(best, dx*dx+dy*dy)
 	}
 	if inside {
-		return best
+		return math.Sqrt(best)
 	}
-	return -best
+	return -math.Sqrt(best)
 }
 
 // shadeRows computes each pixel's colour. With n = 1 it goes straight to
@@ -603,8 +619,8 @@ func (r *Renderer) specular(st *cartState, x, y float64) float64 {
 		ln := math.Sqrt(lx*lx + ly*ly + lz*lz)
 		hx, hy, hz := lx/ln+vx, ly/ln+vy, lz/ln+vz
 		hz /= math.Sqrt(hx*hx + hy*hy + hz*hz)
-		if hz > 0.9 {
-			s += lp.Strength * math.Pow(hz, fl.Shininess)
+		if hz > r.specMin {
+			s += lp.Strength * math.Exp(fl.Shininess*math.Log(hz))
 		}
 	}
 	return fl.Gloss * s

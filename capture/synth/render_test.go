@@ -43,7 +43,7 @@ func rowCoverage(buf []byte, w, y int, floorB, tapeB float64) (width, centre flo
 func TestRenderedStripeMatchesTruth(t *testing.T) {
 	curve := straightScene()
 	curve.Name = "test-curve"
-	curve.Stripe.Path = Path{Segments: []Segment{Straight(1.5), Arc(2, 60), Straight(5)}}
+	curve.Stripe.Path = Path{Segments: []Segment{Straight(1.5), Arc(1.5, 60), Straight(5)}}
 	curve.Motion = Motion{SpeedMps: 1, StartM: 0.5, WeaveAmpM: 0.08, WeaveWavelengthM: 3}
 	curve.Frames = 40
 	weave := straightScene()

@@ -101,3 +101,27 @@ func TestWearRemovesTape(t *testing.T) {
 		t.Errorf("%.2f of the near centreline shows floor, want a worn share", f)
 	}
 }
+
+// TestVisibleThroughout: scenarios without gaps keep the line in view in
+// every frame (truth only, no pixels; every second frame to stay quick).
+func TestVisibleThroughout(t *testing.T) {
+	for _, name := range Names() {
+		sc, _ := Lookup(name)
+		if name == "gap" {
+			continue
+		}
+		r, err := New(sc)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var lost []int
+		for i := 0; i < sc.Frames; i += 2 {
+			if f := r.truthAt(i, r.cartAt(float64(i)/sc.FPS)); !f.Visible {
+				lost = append(lost, i)
+			}
+		}
+		if len(lost) > 0 {
+			t.Errorf("%s: line not visible in %d frames, first %d", name, len(lost), lost[0])
+		}
+	}
+}

@@ -115,7 +115,7 @@ func (sc *Scenario) check() error {
 		return fmt.Errorf("synth: scenario %q: %s: %w", sc.Name, what, ErrScenario)
 	}
 	switch {
-	case sc.Width < 8 || sc.Height < 8 || sc.Width > 8192 || sc.Height > 8192:
+	case sc.Width < 8 || sc.Height < 8 || sc.Width > 4096 || sc.Height > 4096:
 		return bad(fmt.Sprintf("size %dx%d", sc.Width, sc.Height))
 	case !(sc.FPS > 0):
 		return bad("fps must be > 0")

@@ -160,6 +160,12 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		WidthPx:    widthIn,
 	}
 	yBot := math.Min(r.yHi+step/2, float64(l.y1))
+	// A short unseen stretch at the near end (a gap between dashes, a worn
+	// patch) is bridged down to the bottom of the ROI: at most 15 % of its
+	// height, the same extrapolation the offset at the reference row uses.
+	if float64(l.y1)-yBot <= 0.15*roiH {
+		yBot = float64(l.y1)
+	}
 	yTop := math.Max(r.yLo-step/2, float64(l.y0))
 	n := min(max(r.inliers, 8), 32)
 	d.Points = make([]Point, n)
@@ -174,7 +180,9 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		name string
 	}
 	fs := []factor{
-		{clamp01(float64(r.inliers) / spanBands), "gaps along the line"},
+		// Half the bands along the line supporting it is full marks, so a
+		// dashed line (dashes longer than gaps) is not penalised.
+		{clamp01(2 * float64(r.inliers) / spanBands), "gaps along the line"},
 		{clamp01(span / 0.5), "short line"},
 		{clamp01(1 - 0.5*r.rms*r.rms), "poor fit"},
 		{0.3 + 0.7*clamp01((r.meanSNR-c.cfg.MinSNR)/(2*c.cfg.MinSNR)), "low contrast"},

@@ -30,6 +30,16 @@ const readyTimeout = 5 * time.Second
 // none. Only one Speaker may be open at a time, and the rate cannot change
 // within a process.
 func NewSpeaker(rate int, buffer time.Duration) (*Speaker, error) {
+	return NewSpeakerStall(rate, buffer, defaultStall(buffer))
+}
+
+// NewSpeakerStall is NewSpeaker with the time after which a device that
+// takes no samples counts as lost (ErrDeviceLost). Keep it short on a
+// vehicle; a loaded test machine may need more.
+func NewSpeakerStall(rate int, buffer, stall time.Duration) (*Speaker, error) {
+	if stall < defaultStall(buffer) {
+		stall = defaultStall(buffer)
+	}
 	if buffer <= 0 || buffer > MaxBuffer {
 		return nil, badf("speaker buffer %v: want 0 < b ≤ %v", buffer, MaxBuffer)
 	}
@@ -67,7 +77,7 @@ func NewSpeaker(rate int, buffer time.Duration) (*Speaker, error) {
 	}
 	frameBytes := 2 * 4
 	bufBytes := int(buffer.Seconds()*float64(rate)) * frameBytes
-	s := newSpeaker(nil, bufBytes, defaultStall(buffer))
+	s := newSpeaker(nil, bufBytes, stall)
 	pl := otoState.ctx.NewPlayer(s)
 	if bs, ok := pl.(oto.BufferSizeSetter); ok {
 		bs.SetBufferSize(bufBytes)

@@ -15,6 +15,7 @@ import (
 
 	"github.com/hewline/hewline/audio"
 	"github.com/hewline/hewline/capture"
+	"github.com/hewline/hewline/capture/record"
 	"github.com/hewline/hewline/capture/v4l2"
 	"github.com/hewline/hewline/cmd/internal/pipeline"
 	"github.com/hewline/hewline/guidance"
@@ -45,10 +46,14 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	source := fs.String("source", "", "rehearse on a recorded `FILE` (or image folder), paced at its frame rate, instead of a camera")
 	track := fs.String("track", "", "track log `FILE` (default run-YYYYmmdd-HHMMSS.track.ndjson in the current folder)")
 	speaker := fs.Bool("speaker", true, "sound cues and the alarm on the speaker (ALSA default device)")
+	speakerStall := fs.Duration("speaker-stall", 250*time.Millisecond, "count the speaker as lost when it takes no samples for this long")
 	requireAlarm := fs.Bool("require-alarm", true, "exit with code 3 when no alarm channel works (speaker lost and nothing else can sound the alarm)")
 	forDur := fs.Duration("for", 0, "stop after this long (0 = until interrupted or the source ends)")
 	vibSerial := fs.String("vibrate-serial", "", "vibration cues to a motor driver on serial `PORT` (line protocol \"L n R n\")")
 	vibGPIO := fs.String("vibrate-gpio", "", "vibration cues on two GPIO `PINS` \"LEFT,RIGHT\" (Linux GPIO character device)")
+	recDir := fs.String("record", "", "record the frames guidance saw to `DIR` (MJPEG AVI + per-frame times) for replay")
+	recSize := fs.Int64("record-rotate-mb", 1024, "start a new recording file after about this many MB")
+	recTime := fs.Duration("record-rotate", 10*time.Minute, "start a new recording file after this long")
 	cueMM := fs.Float64("cue-full-scale-mm", 0, "with -calib: the floor offset in `MM` that gives the strongest cue (0 = a quarter of the frame width in pixels)")
 	watchdog := fs.Duration("watchdog", 20*time.Millisecond, "tick the fail-safe this often when no frame comes")
 	o := replayFlags(fs)
@@ -72,7 +77,13 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	var src liveSource
 	var transient func(error) bool
 	if *camera != "" {
-		cam, err := v4l2.OpenCamera(*camera, v4l2.Preference{}, v4l2.Options{})
+		cam, err := v4l2.OpenCamera(*camera, v4l2.Preference{}, v4l2.Options{OnEvent: func(e v4l2.Event) {
+			if e.Kind.Faulty() {
+				fmt.Fprintf(stderr, "hewline run: %s: FAIL-SAFE\n", e)
+			} else {
+				fmt.Fprintf(stderr, "hewline run: %s\n", e)
+			}
+		}})
 		if err != nil {
 			return fmt.Errorf("camera %s: %w", *camera, err)
 		}
@@ -105,7 +116,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	// Audio: speaker and/or WAV, one player rendering in real time.
 	var chans []audio.Channel
 	if *speaker {
-		sp, err := audio.NewSpeaker(48000, audio.MaxBuffer)
+		sp, err := audio.NewSpeakerStall(48000, audio.MaxBuffer, *speakerStall)
 		if err != nil {
 			fmt.Fprintf(stdout, "speaker:     NOT AVAILABLE: %v\n", err)
 		} else {
@@ -177,6 +188,16 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		defer vib.Close()
 	}
 
+	var rec *record.Background
+	if *recDir != "" {
+		r, err := record.New(record.Options{Dir: *recDir, FPS: info.FPS, RotateBytes: *recSize << 20, RotateEvery: *recTime})
+		if err != nil {
+			return fmt.Errorf("record: %w", err)
+		}
+		rec = record.NewBackground(r, 8)
+		fmt.Fprintf(stdout, "recording:   %s (rotating every %d MB or %v; stops, never the run, when the disk fills)\n", *recDir, *recSize, *recTime)
+	}
+
 	logPath := *track
 	if logPath == "" {
 		logPath = "run-" + time.Now().Format("20060102-150405") + ".track.ndjson"
@@ -242,6 +263,9 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if sender != nil {
 		sinks = append(sinks, &pipeline.StreamSink{Sender: sender})
 	}
+	if rec != nil {
+		sinks = append(sinks, &pipeline.RecordSink{B: rec})
+	}
 	if vib != nil {
 		sinks = append(sinks, &pipeline.HapticSink{V: vib, OnError: func(err error) {
 			fmt.Fprintf(stderr, "hewline run: VIBRATION CUES FAILED (the alarm goes on its other channels): %v\n", err)
@@ -270,6 +294,16 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		end, runErr = "interrupted", nil
 	case runErr != nil:
 		end = "error: " + runErr.Error()
+	}
+	if rec != nil {
+		rerr := rec.Close()
+		if rerr == nil {
+			rerr = rec.Err()
+		}
+		if rerr != nil {
+			fmt.Fprintf(stderr, "hewline run: recording: %v\n", rerr)
+		}
+		fmt.Fprintf(stdout, "recording:   %d frames in %s (%d dropped by the recorder)\n", rec.Recorder().Frames(), strings.Join(rec.Recorder().Files(), ", "), rec.Drops())
 	}
 	extra := map[string]float64{"drops": float64(st.Drops), "faults": float64(st.Faults), "watchdog_ticks": float64(st.Ticks), "budget_missed": float64(lat.missed)}
 	for k, v := range lat.percentiles() {

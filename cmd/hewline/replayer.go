@@ -16,6 +16,7 @@ import (
 	"github.com/hewline/hewline/audio"
 	"github.com/hewline/hewline/calib"
 	"github.com/hewline/hewline/capture"
+	"github.com/hewline/hewline/capture/record"
 	"github.com/hewline/hewline/capture/truth"
 	"github.com/hewline/hewline/cmd/internal/pipeline"
 	"github.com/hewline/hewline/guidance"
@@ -70,6 +71,13 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 	}
 	defer src.Close()
 	info := src.Info()
+	// A recording's sidecar gives the times the live run used.
+	if vf, ok := src.(*capture.VideoFile); ok {
+		if ts, err := record.ReadSidecar(record.SidecarPath(clip)); err == nil {
+			vf.UseTimestamps(ts)
+			info.Kind = "recording"
+		}
+	}
 
 	if o.follow != "" && o.follow != "stripe" {
 		return nil, usagef("--follow %s: only stripe is available in this version", o.follow)

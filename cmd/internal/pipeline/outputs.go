@@ -8,6 +8,7 @@ import (
 	"gocv.io/x/gocv"
 
 	"github.com/hewline/hewline/audio"
+	"github.com/hewline/hewline/capture/record"
 	"github.com/hewline/hewline/guidance/ctlstream"
 	"github.com/hewline/hewline/guidance/haptic"
 )
@@ -135,5 +136,28 @@ func (s *HapticSink) Frame(r *Result, _ gocv.Mat) error {
 			s.OnError(err)
 		}
 	}
+	return nil
+}
+
+// RecordSink records every processed frame for replay. The frame's time in
+// the recording is the time the tracker used (Result.TrackT), so that a
+// replay of the recording gives the tracker the same times and repeats the
+// live run's decisions. Recording runs on its own goroutine (Background):
+// a slow disk drops recorded frames (counted) but never slows guidance,
+// and a full disk stops the recording, never the run.
+type RecordSink struct {
+	B *record.Background
+	n int
+}
+
+// Frame implements Sink.
+func (s *RecordSink) Frame(r *Result, img gocv.Mat) error {
+	if r.Tick || img.Empty() {
+		return nil
+	}
+	info := r.Info
+	info.Index, info.T = s.n, r.TrackT
+	s.n++
+	_ = s.B.Write(img, info) // failures are kept in B.Err(); guidance goes on
 	return nil
 }

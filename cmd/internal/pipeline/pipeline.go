@@ -47,6 +47,10 @@ type Result struct {
 	// Captured is the wall time the frame was read (live), Decided the
 	// time its estimate was ready.
 	Captured, Decided time.Time
+	// TrackT is the time the tracker was given for this frame: the
+	// frame's timestamp in replay, the clock in live mode. A recording
+	// keeps it, so that replaying the recording repeats the decisions.
+	TrackT time.Duration
 	// Tick marks a watchdog result: no frame, no image, no detection;
 	// Info is the last frame's.
 	Tick bool
@@ -322,7 +326,8 @@ func (c *trackerClock) hint(r *Result) vision.Hint {
 func (c *trackerClock) update(r *Result, m guidance.Measurement) guidance.Estimate {
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	e := c.tr.Update(c.at(r), m)
+	r.TrackT = c.at(r)
+	e := c.tr.Update(r.TrackT, m)
 	c.lastFrame = c.now()
 	c.last = Result{Info: r.Info, Tick: true}
 	return e

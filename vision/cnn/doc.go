@@ -77,7 +77,10 @@
 //
 // (defaults: 16 000 image-plane scenes, 4 000 renderer frames, batch 32,
 // step 2e-3 decaying by 0.9 per epoch, 15 % validation, patience 4) on one
-// core of the project's machine. SHIPPED_MODEL_STATS
+// core of the project's machine, shared with other work: 20 minutes, all
+// 30 epochs, best at epoch 28 with validation loss 1.152, row accuracy
+// 0.654 (exact cell) and 0.824 within one cell (the validation set holds
+// the degraded frames too; one cell is 20 px at 640 wide).
 // The model's metadata records the command, seed and these figures; -o and
 // -log do not change the weights.
 //

@@ -8,11 +8,13 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strings"
 
 	"gocv.io/x/gocv"
 
 	"github.com/hewline/hewline/guidance"
+	"github.com/hewline/hewline/guidance/report"
 	"github.com/hewline/hewline/guidance/score"
 	"github.com/hewline/hewline/vision"
 )
@@ -33,6 +35,7 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	out := fs.String("out", ".", "`DIR` for track logs (and annotated videos) when -track is not given")
 	truthF := fs.String("truth", "", "score against the truth `FILE` (one clip), or \"auto\" to use CLIP.truth.ndjson beside each clip")
 	video := fs.Bool("video", false, "also write an annotated video (CLIP.annotated.avi in -out)")
+	jobs := fs.Int("jobs", 0, "clips replayed at once, one per worker (0 = one per core)")
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -47,10 +50,28 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if *truthF != "" && *truthF != "auto" && len(clips) > 1 {
 		return usagef("-truth FILE scores one clip; with several clips use -truth auto")
 	}
-	o.progress = isTerminal(stderr)
-	var results []*score.Result
-	var failed []string
-	for _, clip := range clips {
+	seen := map[string]string{}
+	for _, c := range clips {
+		if prev, dup := seen[clipBase(c)]; dup && *track == "" {
+			return usagef("%s and %s would write the same log in -out; replay them separately", prev, c)
+		}
+		seen[clipBase(c)] = c
+	}
+	workers := *jobs
+	if workers <= 0 {
+		workers = runtime.NumCPU()
+	}
+	workers = min(workers, len(clips))
+	o.progress = isTerminal(stderr) && workers == 1
+
+	// One clip per worker; every clip gets its own log even when another
+	// fails. Results are printed in the clips' order.
+	type outcome struct {
+		res     *clipResult
+		logPath string
+		scoreEr error
+	}
+	outs, errs := report.ParallelMap(ctx, clips, workers, func(ctx context.Context, clip string) (outcome, error) {
 		logPath := *track
 		if logPath == "" {
 			logPath = filepath.Join(*out, clipBase(clip)+".track.ndjson")
@@ -60,7 +81,19 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 			videoPath = filepath.Join(*out, clipBase(clip)+".annotated.avi")
 		}
 		res, err := replayClip(ctx, clip, logPath, videoPath, o, stderr)
-		if res == nil {
+		oc := outcome{res: res, logPath: logPath}
+		if res != nil {
+			if tp := truthPath(*truthF, clip); tp != "" {
+				res.score, oc.scoreEr = scoreClip(clipBase(clip), logPath, tp)
+			}
+		}
+		return oc, err
+	})
+	var results []*score.Result
+	var failed []string
+	for i, clip := range clips {
+		oc, err := outs[i], errs[i]
+		if oc.res == nil {
 			if errors.As(err, new(usageError)) || len(clips) == 1 {
 				return err
 			}
@@ -68,23 +101,19 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 			failed = append(failed, clip)
 			continue
 		}
-		if tp := truthPath(*truthF, clip); tp != "" {
-			sc, serr := scoreClip(clipBase(clip), logPath, tp)
-			if serr != nil {
-				fmt.Fprintf(stderr, "hewline replay: score: %v\n", serr)
-				failed = append(failed, clip)
-			} else {
-				res.score = sc
-				results = append(results, sc)
-			}
+		if oc.scoreEr != nil {
+			fmt.Fprintf(stderr, "hewline replay: score: %v\n", oc.scoreEr)
+			failed = append(failed, clip)
+		} else if oc.res.score != nil {
+			results = append(results, oc.res.score)
 		}
-		printSummary(stdout, res)
+		printSummary(stdout, oc.res)
 		if err != nil {
 			if errors.Is(err, context.Canceled) {
 				return err
 			}
 			if len(clips) == 1 {
-				return fmt.Errorf("%w (the track log %s holds every frame read before it)", err, logPath)
+				return fmt.Errorf("%w (the track log %s holds every frame read before it)", err, oc.logPath)
 			}
 			fmt.Fprintf(stderr, "hewline replay: %v (the track log holds every frame read before it)\n", err)
 			failed = append(failed, clip)

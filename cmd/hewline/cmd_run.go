@@ -22,7 +22,6 @@ import (
 	"github.com/hewline/hewline/guidance/ctlstream"
 	"github.com/hewline/hewline/guidance/haptic"
 	"github.com/hewline/hewline/guidance/tracklog"
-	"github.com/hewline/hewline/vision"
 )
 
 func init() {
@@ -221,11 +220,12 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 	fmt.Fprintf(stdout, "track log:   %s\n\n", logPath)
 
-	det, err := vision.NewClassical(o.vision)
+	det, closeDet, err := o.newDetector()
 	if err != nil {
 		return err
 	}
-	defer det.Close()
+	defer closeDet()
+	fmt.Fprintf(stdout, "detector:    classical, CNN fallback %s\n", modelName(o))
 	tr, err := guidance.NewTracker(tcfg)
 	if err != nil {
 		return err

@@ -24,6 +24,8 @@ import (
 	"github.com/hewline/hewline/guidance/score"
 	"github.com/hewline/hewline/guidance/tracklog"
 	"github.com/hewline/hewline/vision"
+	"github.com/hewline/hewline/vision/cnn"
+	"github.com/hewline/hewline/vision/cnn/shipped"
 )
 
 // replayOptions are the settings shared by replay and demo.
@@ -40,6 +42,42 @@ type replayOptions struct {
 	stream string
 	// calib is a calibration file for floor values ("" = none).
 	calib string
+	// cnn turns the CNN fallback on; cnnModel replaces the shipped model;
+	// cnnCheck > 0 also runs it every cnnCheck-th frame as a cross-check.
+	cnn      bool
+	cnnModel string
+	cnnCheck int
+}
+
+// newDetector builds the detector stage: the classical detector, fused with
+// the CNN fallback unless it is switched off. The returned close releases
+// both.
+func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
+	cl, err := vision.NewClassical(o.vision)
+	if err != nil {
+		return nil, nil, err
+	}
+	f := &pipeline.Fused{Primary: cl, CrossCheck: o.cnnCheck}
+	closeAll := func() { cl.Close() }
+	if !o.cnn {
+		return f, closeAll, nil
+	}
+	model := shipped.StripeRowAnchor
+	if o.cnnModel != "" {
+		b, err := os.ReadFile(o.cnnModel)
+		if err != nil {
+			cl.Close()
+			return nil, nil, fmt.Errorf("cnn model: %w", err)
+		}
+		model = b
+	}
+	nn, err := cnn.NewDetector(model, cnn.Config{})
+	if err != nil {
+		cl.Close()
+		return nil, nil, fmt.Errorf("cnn model %s: %w", o.cnnModel, err)
+	}
+	f.Fallback = nn
+	return f, func() { cl.Close(); nn.Close() }, nil
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {
@@ -82,11 +120,11 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 	if o.follow != "" && o.follow != "stripe" {
 		return nil, usagef("--follow %s: only stripe is available in this version", o.follow)
 	}
-	det, err := vision.NewClassical(o.vision)
+	det, closeDet, err := o.newDetector()
 	if err != nil {
 		return nil, err
 	}
-	defer det.Close()
+	defer closeDet()
 	tcfg, err := o.trackerConfig()
 	if err != nil {
 		return nil, usagef("%v", err)
@@ -124,6 +162,9 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 			"tracker":           tcfg.String(),
 			"detector":          o.vision,
 			"calibration":       calibInfo,
+			"cnn_fallback":      o.cnn,
+			"cnn_model":         modelName(o),
+			"cnn_cross_check":   o.cnnCheck,
 		},
 	})
 	if err != nil {
@@ -191,6 +232,7 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 	if ss != nil {
 		extra["stream_refused"] = float64(ss.Refused)
 	}
+	extra["cnn_runs"], extra["cnn_used"], extra["cnn_disagreements"] = float64(det.FallbackRuns), float64(det.FallbackUsed), float64(det.Disagreements)
 	if err := lw.Close(end, extra); err != nil && runErr == nil {
 		runErr = err
 	}
@@ -220,6 +262,16 @@ func newBar(info capture.SourceInfo, name string, w io.Writer) *progressbar.Prog
 func isTerminal(w io.Writer) bool {
 	f, ok := w.(*os.File)
 	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+func modelName(o *replayOptions) string {
+	switch {
+	case !o.cnn:
+		return "off"
+	case o.cnnModel != "":
+		return o.cnnModel
+	}
+	return "shipped stripe-rowanchor"
 }
 
 // floorMapper measures detections on the floor through a calibration.

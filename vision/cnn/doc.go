@@ -71,9 +71,9 @@
 //
 // # The shipped model
 //
-// testdata/models/stripe-rowanchor.onnx (about 210 KB) was trained with
+// vision/cnn/shipped/stripe-rowanchor.onnx (about 210 KB) was trained with
 //
-//	hewline train -o testdata/models/stripe-rowanchor.onnx -seed 1 -epochs 30
+//	hewline train -o vision/cnn/shipped/stripe-rowanchor.onnx -seed 1 -epochs 30
 //
 // (defaults: 16 000 image-plane scenes, 4 000 renderer frames, batch 32,
 // step 2e-3 decaying by 0.9 per epoch, 15 % validation, patience 4) on one

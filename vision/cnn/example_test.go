@@ -12,7 +12,7 @@ import (
 // Load the shipped model and measure a rendered frame with a yellow stripe
 // right of centre.
 func ExampleNewDetector() {
-	b, err := os.ReadFile("../../testdata/models/stripe-rowanchor.onnx")
+	b, err := os.ReadFile("shipped/stripe-rowanchor.onnx")
 	if err != nil {
 		fmt.Println(err)
 		return

@@ -14,7 +14,7 @@ import (
 	"gocv.io/x/gocv"
 )
 
-const shippedPath = "../../testdata/models/stripe-rowanchor.onnx"
+const shippedPath = "shipped/stripe-rowanchor.onnx"
 
 func shippedDetector(t testing.TB, cfg Config) *Detector {
 	t.Helper()

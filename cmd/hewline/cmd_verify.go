@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strings"
 
 	"github.com/hewline/hewline/guidance/tracklog"
 )
@@ -25,8 +26,11 @@ func runVerify(_ context.Context, args []string, stdout, stderr io.Writer) error
 	if fs.NArg() == 0 {
 		return usagef("no log given")
 	}
-	if fs.NArg() == 1 {
-		msg, err := verifyOne(fs.Arg(0))
+	// Rotated logs are checked as sets: each file continues the one
+	// before, so a missing, extra or reordered part is found too.
+	groups := tracklog.GroupSets(fs.Args())
+	if len(groups) == 1 {
+		msg, err := verifyGroup(groups[0])
 		if err != nil {
 			return err
 		}
@@ -34,8 +38,8 @@ func runVerify(_ context.Context, args []string, stdout, stderr io.Writer) error
 		return nil
 	}
 	bad := 0
-	for _, p := range fs.Args() {
-		msg, err := verifyOne(p)
+	for _, g := range groups {
+		msg, err := verifyGroup(g)
 		if err != nil {
 			fmt.Fprintf(stdout, "FAILED: %v\n", err)
 			bad++
@@ -44,20 +48,26 @@ func runVerify(_ context.Context, args []string, stdout, stderr io.Writer) error
 		fmt.Fprintln(stdout, msg)
 	}
 	if bad > 0 {
-		return fmt.Errorf("%d of %d logs failed verification", bad, fs.NArg())
+		return fmt.Errorf("%d of %d logs failed verification", bad, len(groups))
 	}
 	return nil
 }
 
-// verifyOne checks one log and says what it found.
-func verifyOne(p string) (string, error) {
-	f, err := os.Open(p)
-	if err != nil {
-		return "", err
+// verifyGroup checks one log (one file, or the files of a rotated log)
+// and says what it found.
+func verifyGroup(files []string) (string, error) {
+	p := strings.Join(files, " + ")
+	if len(files) == 1 {
+		if _, err := os.Stat(files[0]); err != nil {
+			return "", err
+		}
 	}
-	l, err := tracklog.Read(f)
-	f.Close()
+	l, err := tracklog.ReadSet(files)
 	switch {
+	case err != nil && len(files) == 1 && !strings.Contains(err.Error(), files[0]):
+		return "", fmt.Errorf("%s: %w", p, err)
+	case err != nil:
+		return "", err
 	case err != nil:
 		return "", fmt.Errorf("%s: %w", p, err)
 	case l.Summary == nil:

@@ -13,7 +13,8 @@ cd "$(dirname "$0")/.."
 #   ffmpeg          ffprobe: outside frame counts of video files (tests)
 #   opencv-doc      OpenCV's sample chessboard images left01..left14 (calibration test)
 #   python3-onnx    onnx.checker, an outside check of exported CNN models (tests)
-packages=(libopencv-dev libasound2-dev sox ffmpeg opencv-doc python3-onnx pkg-config)
+#   chromium        headless rendering checks of the HTML report and the status page (tests)
+packages=(libopencv-dev libasound2-dev sox ffmpeg opencv-doc python3-onnx chromium pkg-config)
 
 missing=()
 for p in "${packages[@]}"; do

@@ -90,6 +90,8 @@ func TestBadFiles(t *testing.T) {
 		"replay calib": {"replay", "-out", out, "-calib", "FILE", files["good"]},
 		"run":          {"run", "-speaker=false", "-require-alarm=false", "-track", filepath.Join(out, "run.ndjson"), "-source", "FILE"},
 		"verify":       {"verify", "FILE"},
+		"report":       {"report", "-o", filepath.Join(out, "r.html"), "FILE"},
+		"compare":      {"compare", "FILE", "FILE"},
 		"calib lens":   {"calib", "lens", "-o", filepath.Join(out, "c.json"), "FILE"},
 		"calib floor":  {"calib", "floor", "-calib", "FILE", "-height", "500", "-pitch", "30"},
 		"train site":   {"train", "-o", filepath.Join(out, "m.onnx"), "-epochs", "1", "-frames", "8", "-site", "FILE"},

@@ -50,6 +50,8 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	forDur := fs.Duration("for", 0, "stop after this long (0 = until interrupted or the source ends)")
 	vibSerial := fs.String("vibrate-serial", "", "vibration cues to a motor driver on serial `PORT` (line protocol \"L n R n\")")
 	vibGPIO := fs.String("vibrate-gpio", "", "vibration cues on two GPIO `PINS` \"LEFT,RIGHT\" (Linux GPIO character device)")
+	logRotMB := fs.Int64("track-rotate-mb", 64, "start a new track-log file (chained to the last) after this many MB")
+	logRot := fs.Duration("track-rotate", time.Hour, "start a new track-log file after this much run time")
 	recDir := fs.String("record", "", "record the frames guidance saw to `DIR` (MJPEG AVI + per-frame times) for replay")
 	recSize := fs.Int64("record-rotate-mb", 1024, "start a new recording file after about this many MB")
 	recTime := fs.Duration("record-rotate", 10*time.Minute, "start a new recording file after this long")
@@ -204,17 +206,12 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err := os.MkdirAll(filepath.Dir(logPath), 0o755); err != nil {
 		return err
 	}
-	lf, err := os.Create(logPath)
-	if err != nil {
-		return fmt.Errorf("track log: %w", err)
-	}
-	defer lf.Close()
-	lw, err := tracklog.NewWriter(lf, tracklog.Header{
+	lw, err := tracklog.NewRotatingWriter(logPath, tracklog.Header{
 		Tool: "hewline " + version, Source: info.Name, Kind: info.Kind, Width: info.Size.X, Height: info.Size.Y, FPS: info.FPS,
 		Follow: "stripe", Started: time.Now().UTC().Format(time.RFC3339),
 		Settings: map[string]any{"fail_safe_after_s": tcfg.FailSafeAfter.Seconds(), "reacquire_for_s": tcfg.ReacquireFor.Seconds(),
 			"tracker": tcfg.String(), "detector": o.vision, "calibration": o.calib, "alarm_channels": player.Channels(true), "live": true},
-	})
+	}, tracklog.Rotation{MaxBytes: *logRotMB << 20, MaxSpan: *logRot})
 	if err != nil {
 		return err
 	}
@@ -312,7 +309,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err := lw.Close(end, extra); err != nil && runErr == nil {
 		runErr = err
 	}
-	fmt.Fprintf(stdout, "stopped (%s): %d frames, %d dropped, %d faults, %d over the frame budget; track log %s\n", end, st.Frames, st.Drops, st.Faults, lat.missed, logPath)
+	fmt.Fprintf(stdout, "stopped (%s): %d frames, %d dropped, %d faults, %d over the frame budget; track log %s\n", end, st.Frames, st.Drops, st.Faults, lat.missed, strings.Join(lw.Files(), ", "))
 	return runErr
 }
 

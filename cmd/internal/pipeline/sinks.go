@@ -10,9 +10,15 @@ import (
 	"github.com/hewline/hewline/guidance/tracklog"
 )
 
+// RecordWriter takes track-log records: a *tracklog.Writer or a
+// *tracklog.RotatingWriter. It must not retain the record.
+type RecordWriter interface {
+	Write(r *tracklog.Record) error
+}
+
 // LogSink writes every frame to a track log.
 type LogSink struct {
-	W   *tracklog.Writer
+	W   RecordWriter
 	rec tracklog.Record
 }
 

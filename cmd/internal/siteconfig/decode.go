@@ -58,6 +58,7 @@ func Parse(name string, data []byte) (*Site, error) {
 	}
 	d.decodeStruct(root, reflect.ValueOf(s).Elem(), "")
 	s.resolvePaths(filepath.Dir(name))
+	s.Follow = strings.ToLower(strings.TrimSpace(s.Follow))
 	d.probs = append(d.probs, s.check(d.failed)...)
 	if len(d.probs) > 0 {
 		sort.SliceStable(d.probs, func(i, j int) bool { return d.probs[i].Line < d.probs[j].Line })

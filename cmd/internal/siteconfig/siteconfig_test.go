@@ -372,3 +372,70 @@ func TestRelativePaths(t *testing.T) {
 		t.Errorf("track_dir = %q, want %q", s.Outputs.TrackDir, want)
 	}
 }
+
+// TestStreamAddress: the controller stream goes to one receiver; the
+// special IPv4/IPv6 addresses are those of RFC 919 (limited broadcast
+// 255.255.255.255), RFC 5771 (multicast 224.0.0.0/4), RFC 4291 (ff00::/8,
+// unspecified ::) and RFC 1122 (0.0.0.0 as "this host", never a
+// destination).
+func TestStreamAddress(t *testing.T) {
+	for name, c := range map[string]struct {
+		addr string
+		ok   bool
+	}{
+		"loopback":              {"127.0.0.1:47211", true},
+		"a controller on a LAN": {"10.20.3.7:47211", true},
+		"a host name":           {"cart-t3-plc.local:47211", true},
+		"no host (loopback)":    {":47211", true},
+		"IPv6 loopback":         {"[::1]:47211", true},
+		"limited broadcast":     {"255.255.255.255:47211", false},
+		"IPv4 multicast":        {"239.1.2.3:47211", false},
+		"IPv6 multicast":        {"[ff02::1]:47211", false},
+		"unspecified IPv4":      {"0.0.0.0:47211", false},
+		"unspecified IPv6":      {"[::]:47211", false},
+		"a /24 broadcast":       {"192.168.1.255:47211", false},
+		"no port":               {"127.0.0.1", false},
+		"port 0":                {"127.0.0.1:0", false},
+		"port too big":          {"127.0.0.1:70000", false},
+		"named port":            {"127.0.0.1:http", false},
+	} {
+		t.Run(name, func(t *testing.T) {
+			msg := checkStream(c.addr)
+			if (msg == "") != c.ok {
+				t.Errorf("checkStream(%q) = %q, want ok=%v", c.addr, msg, c.ok)
+			}
+		})
+	}
+}
+
+// FuzzParse: no input makes Parse panic, and every problem it reports
+// names the file.
+func FuzzParse(f *testing.F) {
+	for _, seed := range []string{ExampleYAML, "", "a: [", "camera: {width: 1e400}", "alarm: &a\n  x: *a\n", "cues:\n  sound:\n    harmonics: [1, two]\n", "? [a]\n: b\n"} {
+		f.Add([]byte(seed))
+	}
+	files, _ := filepath.Glob("testdata/site/*.yaml")
+	for _, p := range files {
+		if b, err := os.ReadFile(p); err == nil {
+			f.Add(b)
+		}
+	}
+	f.Fuzz(func(t *testing.T, data []byte) {
+		s, err := Parse("fuzz.yaml", data)
+		if err == nil {
+			if s == nil {
+				t.Fatal("nil site without an error")
+			}
+			return
+		}
+		var list Errors
+		if !errors.As(err, &list) || len(list) == 0 {
+			t.Fatalf("Parse error %v is not a non-empty Errors", err)
+		}
+		for _, p := range list {
+			if p.File != "fuzz.yaml" {
+				t.Fatalf("problem %q does not name the file", p)
+			}
+		}
+	})
+}

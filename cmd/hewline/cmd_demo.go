@@ -31,6 +31,9 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
+	if err := o.applySite(fs); err != nil {
+		return err
+	}
 	if *list {
 		for _, n := range synth.Names() {
 			sc, _ := synth.Lookup(n)

@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"strings"
+	"time"
 
 	"gocv.io/x/gocv"
 
@@ -38,6 +39,9 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	jobs := fs.Int("jobs", 0, "clips replayed at once, one per worker (0 = one per core)")
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
+		return err
+	}
+	if err := o.applySite(fs); err != nil {
 		return err
 	}
 	clips := fs.Args()
@@ -152,13 +156,10 @@ func replayFlags(fs *flag.FlagSet) *replayOptions {
 	o := &replayOptions{vision: vision.DefaultConfig()}
 	def := guidance.DefaultConfig()
 	fs.StringVar(&o.follow, "follow", "stripe", "what to follow: `stripe` (lane mode is not in this version)")
-	fs.DurationVar(&o.failSafe, "failsafe", def.FailSafeAfter, "raise the fail-safe alarm after this long without a trusted measurement")
-	fs.DurationVar(&o.reacquire, "reacquire", def.ReacquireFor, "see the line this long before guidance resumes after a loss")
-	fs.Func("polarity", "stripe lighter or darker than the floor: auto, light or dark (default auto)", func(s string) error {
-		p, err := vision.ParsePolarity(s)
-		o.vision.Polarity = p
-		return err
-	})
+	fs.DurationVar(new(time.Duration), "failsafe", def.FailSafeAfter, "raise the fail-safe alarm after this long without a trusted measurement")
+	fs.DurationVar(new(time.Duration), "reacquire", def.ReacquireFor, "see the line this long before guidance resumes after a loss")
+	fs.String("polarity", "auto", "stripe lighter or darker than the floor: auto, light or dark")
+	fs.StringVar(&o.sitePath, "site", "", "site configuration `FILE` (hewline config check); flags given here override it")
 	fs.StringVar(&o.wav, "wav", "", "write the operator's cue and alarm sound, following frame times, to the WAV `FILE`")
 	fs.StringVar(&o.stream, "stream", "", "send the controller stream (NDJSON over UDP) to `HOST:PORT` (loopback or an explicit address; broadcast refused)")
 	fs.StringVar(&o.calib, "calib", "", "calibration `FILE` (hewline calib): adds offset_mm, heading_floor_deg and width_mm while tracking")

@@ -61,6 +61,22 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
+	if err := o.applySite(fs); err != nil {
+		return err
+	}
+	// The site file's values, with the flags the user set on top.
+	site := o.site
+	*speaker, *requireAlarm = site.Cues.Speaker, site.Cues.RequireAlarm
+	if *source == "" {
+		*camera = site.Camera.Device // a rehearsal on a file ignores the site's camera
+	}
+	*vibSerial, *vibGPIO = site.Cues.VibrateSerial, site.Cues.VibrateGPIO
+	if *recDir == "" {
+		*recDir = site.Outputs.RecordDir
+	}
+	if *track == "" && site.Outputs.TrackDir != "" {
+		*track = filepath.Join(site.Outputs.TrackDir, "run-"+time.Now().Format("20060102-150405")+".track.ndjson")
+	}
 	if fs.NArg() > 0 {
 		return usagef("run takes no arguments (got %q)", fs.Args())
 	}
@@ -69,6 +85,12 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 	fmt.Fprintln(stdout, safetyShort)
 	fmt.Fprintln(stdout)
+	if site.File() != "" {
+		fmt.Fprintf(stdout, "site file:   %s\n", site.File())
+	}
+	for _, w := range site.Warnings() {
+		fmt.Fprintf(stdout, "WARNING:     %s\n", w)
+	}
 
 	// Start-up checks: say what was found before anything moves.
 	tcfg, err := o.trackerConfig()
@@ -78,7 +100,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	var src liveSource
 	var transient func(error) bool
 	if *camera != "" {
-		cam, err := v4l2.OpenCamera(*camera, v4l2.Preference{}, v4l2.Options{OnEvent: func(e v4l2.Event) {
+		cam, err := v4l2.OpenCamera(*camera, site.CameraPreference(), v4l2.Options{OnEvent: func(e v4l2.Event) {
 			if e.Kind.Faulty() {
 				fmt.Fprintf(stderr, "hewline run: %s: FAIL-SAFE\n", e)
 			} else {
@@ -133,7 +155,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		chans = append(chans, audio.Channel{Name: o.wav, Sink: w})
 		fmt.Fprintf(stdout, "audio file:  %s (a record, not an alarm channel)\n", o.wav)
 	}
-	syn, err := audio.NewSynth(48000, audio.DefaultMapping(), audio.DefaultAlarm())
+	syn, err := audio.NewSynth(48000, site.Audio(), audio.DefaultAlarm())
 	if err != nil {
 		return err
 	}
@@ -151,7 +173,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 
 	var sender *ctlstream.Sender
 	if o.stream != "" {
-		sender, err = ctlstream.NewUDP(o.stream, ctlstream.Options{})
+		sender, err = ctlstream.NewUDP(o.stream, site.StreamOptions())
 		if err != nil {
 			return err
 		}

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"errors"
+	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -19,6 +20,7 @@ import (
 	"github.com/hewline/hewline/capture/record"
 	"github.com/hewline/hewline/capture/truth"
 	"github.com/hewline/hewline/cmd/internal/pipeline"
+	"github.com/hewline/hewline/cmd/internal/siteconfig"
 	"github.com/hewline/hewline/guidance"
 	"github.com/hewline/hewline/guidance/ctlstream"
 	"github.com/hewline/hewline/guidance/score"
@@ -30,11 +32,14 @@ import (
 
 // replayOptions are the settings shared by replay and demo.
 type replayOptions struct {
-	follow    string
-	failSafe  time.Duration
-	reacquire time.Duration
-	progress  bool
-	vision    vision.Config
+	follow   string
+	progress bool
+	vision   vision.Config
+	tracker  guidance.Config
+	// sitePath is the site configuration file; site is what is in force
+	// (defaults < file < flags), set by applySite.
+	sitePath string
+	site     *siteconfig.Site
 	// wav, when set, receives the operator's cue and alarm sound,
 	// following the frame timestamps.
 	wav string
@@ -81,10 +86,31 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {
-	c := guidance.DefaultConfig()
-	c.FailSafeAfter = o.failSafe
-	c.ReacquireFor = o.reacquire
-	return c, c.Validate()
+	return o.tracker, o.tracker.Validate()
+}
+
+// applySite builds the settings in force: the defaults, then the site file
+// (-site), then the flags the user set. Every mistake in the file is
+// reported with its line.
+func (o *replayOptions) applySite(fs *flag.FlagSet) error {
+	site := siteconfig.Default()
+	if o.sitePath != "" {
+		s, err := siteconfig.Load(o.sitePath)
+		if err != nil {
+			return err
+		}
+		site = s
+	}
+	if err := site.Override(fs); err != nil {
+		return usagef("%v", err)
+	}
+	o.site = site
+	o.vision = site.Vision()
+	o.tracker = site.Tracker()
+	o.follow = site.Follow
+	o.calib = site.Calibration.File
+	o.stream = site.Outputs.Stream
+	return nil
 }
 
 // clipResult is what one replayed clip produced.
@@ -162,6 +188,7 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 			"tracker":           tcfg.String(),
 			"detector":          o.vision,
 			"calibration":       calibInfo,
+			"site":              o.site.File(),
 			"cnn_fallback":      o.cnn,
 			"cnn_model":         modelName(o),
 			"cnn_cross_check":   o.cnnCheck,

@@ -184,3 +184,37 @@ func TestRecordThenReplayRepeatsDecisions(t *testing.T) {
 		t.Errorf("the run never went through a loss (states %v): the test proves little", states)
 	}
 }
+
+// TestSiteFile: a site file's settings reach the track log, a flag given on
+// the command line beats the file, and a broken file is refused with its
+// line.
+func TestSiteFile(t *testing.T) {
+	clip := shortClip(t, 30)
+	dir := t.TempDir()
+	site := filepath.Join(dir, "site.yaml")
+	os.WriteFile(site, []byte("alarm:\n  fail_safe_after: 450ms\n"), 0o644)
+	logA, logB := filepath.Join(dir, "a.ndjson"), filepath.Join(dir, "b.ndjson")
+	if code, _, se := runCmd(t, "replay", "-site", site, "-track", logA, clip); code != 0 {
+		t.Fatalf("replay -site: exit %d: %s", code, se)
+	}
+	if code, _, se := runCmd(t, "replay", "-site", site, "-failsafe", "200ms", "-track", logB, clip); code != 0 {
+		t.Fatalf("replay -site -failsafe: exit %d: %s", code, se)
+	}
+	for p, want := range map[string]float64{logA: 0.45, logB: 0.2} {
+		f, _ := os.Open(p)
+		l, err := tracklog.Read(f)
+		f.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := l.Header.Settings["fail_safe_after_s"]; got != want {
+			t.Errorf("%s: fail_safe_after_s %v, want %v", filepath.Base(p), got, want)
+		}
+	}
+	bad := filepath.Join(dir, "bad.yaml")
+	os.WriteFile(bad, []byte("alarm:\n  fail_safe_aftr: 450ms\n"), 0o644)
+	code, _, se := runCmd(t, "replay", "-site", bad, "-track", logA, clip)
+	if code == 0 || !strings.Contains(se, bad+":2:") {
+		t.Errorf("broken site file: exit %d, stderr %q; want an error naming %s:2", code, se, bad)
+	}
+}

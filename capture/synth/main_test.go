@@ -1,24 +1,16 @@
 package synth
 
 import (
-	"fmt"
-	"os"
 	"testing"
 
 	"gocv.io/x/gocv"
+
+	"github.com/hewline/hewline/capture/matcheck"
 )
 
 // TestMain fails the run when a test leaks a Mat (run with -tags
 // matprofile for the count to be kept).
-func TestMain(m *testing.M) {
-	code := m.Run()
-	if n := gocv.MatProfile.Count(); n != 0 {
-		fmt.Fprintf(os.Stderr, "synth: %d Mats not closed:\n", n)
-		gocv.MatProfile.WriteTo(os.Stderr, 1)
-		code = 1
-	}
-	os.Exit(code)
-}
+func TestMain(m *testing.M) { matcheck.Main(m) }
 
 // BenchmarkRender640 measures one 640×480 frame of the demo scenario.
 func BenchmarkRender640(b *testing.B) {

@@ -13,8 +13,9 @@ cd "$(dirname "$0")/.."
 #   ffmpeg          ffprobe: outside frame counts of video files (tests)
 #   opencv-doc      OpenCV's sample chessboard images left01..left14 (calibration test)
 #   python3-onnx    onnx.checker, an outside check of exported CNN models (tests)
+#   python3-prometheus-client  an outside parser of the /metrics text (tests)
 #   chromium        headless rendering checks of the HTML report and the status page (tests)
-packages=(libopencv-dev libasound2-dev sox ffmpeg opencv-doc python3-onnx chromium pkg-config)
+packages=(libopencv-dev libasound2-dev sox ffmpeg opencv-doc python3-onnx python3-prometheus-client chromium pkg-config)
 
 missing=()
 for p in "${packages[@]}"; do

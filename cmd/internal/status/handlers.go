@@ -240,6 +240,10 @@ func (s *Server) serveStream(w http.ResponseWriter, r *http.Request) {
 	w.Header().Set("Content-Type", "multipart/x-mixed-replace; boundary="+boundary)
 	w.Header().Set("Cache-Control", "no-store")
 	rc := http.NewResponseController(w)
+	w.WriteHeader(http.StatusOK)
+	if rc.Flush() != nil { // send the headers now: the first JPEG may take a while
+		return
+	}
 	var sent uint64
 	for {
 		b, seq, idx, ready := s.latestJPEG()

@@ -412,13 +412,23 @@ func needTool(t *testing.T, what string) {
 	t.Skip("SKIP: " + msg)
 }
 
+// debianPython is Debian's interpreter, which sees the python3-* packages
+// (a python3 earlier in PATH, e.g. from pyenv, may not).
+func debianPython() string {
+	if _, err := os.Stat("/usr/bin/python3"); err == nil {
+		return "/usr/bin/python3"
+	}
+	return "python3"
+}
+
 func referenceParse(t *testing.T, text []byte) map[string]float64 {
 	t.Helper()
-	if exec.Command("python3", "-c", "import prometheus_client").Run() != nil {
+	py := debianPython()
+	if exec.Command(py, "-c", "import prometheus_client").Run() != nil {
 		needTool(t, "python3 with prometheus_client (Debian python3-prometheus-client)")
 		return nil
 	}
-	cmd := exec.Command("python3", "testdata/parse_metrics.py")
+	cmd := exec.Command(py, "testdata/parse_metrics.py")
 	cmd.Stdin = bytes.NewReader(text)
 	var stderr bytes.Buffer
 	cmd.Stderr = &stderr

@@ -12,15 +12,11 @@ import (
 	"strings"
 	"time"
 
-	"gocv.io/x/gocv"
-
 	"github.com/hewline/hewline/guidance"
 	"github.com/hewline/hewline/guidance/report"
 	"github.com/hewline/hewline/guidance/score"
 	"github.com/hewline/hewline/vision"
 )
-
-type gocvMat = gocv.Mat
 
 func init() {
 	register(&command{

@@ -11,6 +11,8 @@ import (
 	"strings"
 	"time"
 
+	"gocv.io/x/gocv"
+
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 
@@ -272,7 +274,7 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 
 type barSink struct{ b *progressbar.ProgressBar }
 
-func (s barSink) Frame(*pipeline.Result, gocvMat) error { return s.b.Add(1) }
+func (s barSink) Frame(*pipeline.Result, gocv.Mat) error { return s.b.Add(1) }
 
 func newBar(info capture.SourceInfo, name string, w io.Writer) *progressbar.ProgressBar {
 	return progressbar.NewOptions(info.Frames,

@@ -2,40 +2,16 @@ package ctlstream_test
 
 import (
 	"bufio"
-	"fmt"
-	"os"
 	"testing"
 
-	"golang.org/x/sys/unix"
-
 	"github.com/hewline/hewline/guidance/ctlstream"
+	"github.com/hewline/hewline/guidance/internal/ptytest"
 )
-
-// openPTY opens a pseudo-terminal pair: the master end for the test to
-// read, and the slave device's path for the code under test to open as a
-// serial port.
-func openPTY(t *testing.T) (*os.File, string) {
-	t.Helper()
-	m, err := os.OpenFile("/dev/ptmx", os.O_RDWR|unix.O_NOCTTY, 0)
-	if err != nil {
-		t.Skipf("SKIPPED LOUDLY: no pseudo-terminals here (%v); the serial path was not exercised", err)
-	}
-	t.Cleanup(func() { m.Close() })
-	fd := int(m.Fd())
-	if err := unix.IoctlSetPointerInt(fd, unix.TIOCSPTLCK, 0); err != nil {
-		t.Fatalf("unlock pty: %v", err)
-	}
-	n, err := unix.IoctlGetInt(fd, unix.TIOCGPTN)
-	if err != nil {
-		t.Fatalf("pty number: %v", err)
-	}
-	return m, fmt.Sprintf("/dev/pts/%d", n)
-}
 
 // TestSerialOverPTY sends over a real tty (a pseudo-terminal standing in
 // for a USB serial adapter) and reads the NDJSON lines at the other end.
 func TestSerialOverPTY(t *testing.T) {
-	master, path := openPTY(t)
+	master, path := ptytest.Open(t)
 	c := newClock()
 	s, err := ctlstream.NewSerial(path, 115200, ctlstream.Options{Now: c.Now, Session: 5})
 	if err != nil {

@@ -71,7 +71,24 @@
 // dark-floor. Scenario.Resized gives any other resolution. The warehouse is
 // invented; colours are chosen by eye, not measured.
 //
-// Not modelled yet: lane mode (two boundary lines), JPEG blocking,
+// Lane mode (Scenario.Follow = "lane"): the cart drives along Stripe.Path,
+// which is not drawn; the lane's two boundary lines run parallel to it at
+// ±Lane.WidthM/2 (arcs with their radii shifted), each its own Mark with
+// gaps given along the centre path. Truth then holds the centre in Points
+// where at least one boundary is laid, the boundaries in Left and Right,
+// and the lane width in LaneWidthPx and LaneWidthM. Lane scenarios:
+// lane-straight, lane-s-curve (2 m radius), lane-one-side (each line worn
+// away for a stretch), lane-mixed (white 50 mm and yellow 100 mm lines),
+// lane-fisheye (forward-looking wide lens) and lane-reflections.
+//
+// Reflections (reflections.go): a glossy floor mirrors ceiling luminaires
+// (Light.Tubes) by the law of reflection: a pixel whose ray meets the floor
+// at P, reflected, rises to the lamp's height Z at P + (P − C)·Z/C.z, and
+// sees the lamp when that point is on it. The streaks move with the
+// camera, not with the floor. Scenarios reflections (stripe mode, with a
+// gap in the tape) and lane-reflections.
+//
+// Not modelled yet: JPEG blocking,
 // auto-exposure drift, rolling-shutter geometry (only its flicker bands),
 // walls and racks as 3-D geometry.
 package synth

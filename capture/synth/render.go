@@ -94,6 +94,10 @@ type Renderer struct {
 	buf    []byte    // BGR 8-bit frame
 	marks  []markGeom
 	stripe markGeom
+	// lane holds the boundaries in lane mode (haveLane); they are drawn
+	// as marks and the stripe is not drawn.
+	lane     laneGeom
+	haveLane bool
 	tex    *texture
 	// shadowBox[i] is the bounding box of Light.Shadows[i] at t = 0
 	shadowBox [][4]float64
@@ -133,6 +137,10 @@ func (sc *Scenario) check() error {
 		return bad("stripe path is empty")
 	case sc.Light.Gain < 0:
 		return bad("negative gain")
+	case sc.Follow != "" && sc.Follow != FollowStripe && sc.Follow != FollowLane:
+		return bad(fmt.Sprintf("follow %q: want stripe or lane", sc.Follow))
+	case sc.Follow == FollowLane && !(sc.Lane.WidthM > 0 && sc.Lane.Left.WidthM > 0 && sc.Lane.Right.WidthM > 0):
+		return bad("lane and boundary widths must be > 0")
 	}
 	for _, s := range sc.Light.Shadows {
 		if len(s.Poly) < 3 {
@@ -177,6 +185,11 @@ func New(sc Scenario) (*Renderer, error) {
 		r.marks = append(r.marks, newMarkGeom(m, splitmix64(seed+uint64(i)+100)))
 	}
 	r.stripe = newMarkGeom(sc.Stripe, splitmix64(seed+7))
+	if lg, ok := newLaneGeom(&r.sc, seed); ok {
+		r.lane, r.haveLane = lg, true
+		r.lane.leftIdx, r.lane.rightIdx = len(r.marks), len(r.marks)+1
+		r.marks = append(r.marks, lg.left, lg.right)
+	}
 	if sc.Floor.Shininess > 0 {
 		r.specMin = math.Exp(math.Log(1e-3) / sc.Floor.Shininess)
 	}
@@ -200,13 +213,21 @@ func (r *Renderer) Scenario() Scenario { return r.sc }
 // Header returns the truth file header for the clip.
 func (r *Renderer) Header() truth.Header {
 	return truth.Header{
-		Format: truth.Format, Scenario: r.sc.Name, Follow: "stripe",
+		Format: truth.Format, Scenario: r.sc.Name, Follow: r.follow(),
 		Width: r.w, Height: r.h, FPS: r.sc.FPS, Frames: r.sc.Frames,
 		RefRow: r.refRow(), LookaheadM: r.sc.LookaheadM, Notes: r.sc.Notes,
 	}
 }
 
 func (r *Renderer) refRow() float64 { return 0.8 * float64(r.h) }
+
+// follow is the scenario's follow mode, FollowStripe when unset.
+func (r *Renderer) follow() string {
+	if r.haveLane {
+		return FollowLane
+	}
+	return FollowStripe
+}
 
 // Info describes the renderer as a frame source.
 func (r *Renderer) Info() capture.SourceInfo {
@@ -560,7 +581,7 @@ func (r *Renderer) shadeRows(st *cartState, j0, j1 int, n int, last bool, frame 
 						cr, cg, cb = lerp(cr, mg.m.Colour.R, c), lerp(cg, mg.m.Colour.G, c), lerp(cb, mg.m.Colour.B, c)
 					}
 				}
-				if c := r.stripe.coverage(cands[len(r.marks)], x, y, ux, uy, vx, vy, fp); c > 0 {
+				if c := r.stripe.coverage(cands[len(r.marks)], x, y, ux, uy, vx, vy, fp); c > 0 && !r.haveLane {
 					m := &r.stripe.m
 					ts := 1 + fl.Texture*0.3*r.tex.at(y*3, x*3, fp*3)
 					c *= m.Opacity
@@ -572,7 +593,7 @@ func (r *Renderer) shadeRows(st *cartState, j0, j1 int, n int, last bool, frame 
 				}
 				spec := 0.0
 				if fl.Gloss > 0 {
-					spec = r.specular(st, x, y)
+					spec = r.specular(st, x, y) + r.tubeGlow(st, x, y, fp)
 				}
 				f := l * rowGain
 				sp := spec * rowGain

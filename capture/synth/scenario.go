@@ -96,6 +96,8 @@ type Light struct {
 	GainSteps []GainStep
 	Shadows   []Shadow
 	Lamps     []Lamp
+	// Tubes are ceiling luminaires mirrored by a glossy floor (see Tube).
+	Tubes []Tube
 	// FlickerAmp and FlickerHz modulate brightness over time; with a
 	// rolling shutter (LineTimeS > 0, the time between rows) this shows as
 	// horizontal bands.
@@ -140,6 +142,12 @@ type Scenario struct {
 	LookaheadM float64
 	// Tags are written into every truth frame ("shadow", "glare", ...).
 	Tags []string
+	// Follow is the mode the scene is made for: FollowStripe ("" means
+	// the same) or FollowLane, in which Stripe.Path is the lane's centre
+	// (not drawn) and Lane gives the two boundary lines. It goes into the
+	// truth header, so that replays and scores pick the mode up.
+	Follow string
+	Lane   Lane
 }
 
 // Resized returns sc for a w×h image: the intrinsics scale with the image

@@ -146,6 +146,9 @@ func (r *Renderer) truthAt(i int, st cartState) truth.Frame {
 		}
 		prevF, px, py = fw, x, y
 	}
+	if r.haveLane {
+		r.laneTruth(&f, &st, sNear, sFar)
+	}
 	f.Tags = append(f.Tags, r.sc.Tags...)
 	if inGap {
 		f.Tags = append(f.Tags, "gap")

@@ -67,9 +67,19 @@ type Frame struct {
 	// axis and the line's tangent at the look-ahead point, positive when
 	// the line turns to the right.
 	HeadingFloorDeg float64 `json:"heading_floor_deg"`
-	// Left and Right are the two boundary lines in lane mode.
+	// Left and Right are the two boundary lines in lane mode, [x, y]
+	// pairs like Points, each only where that line is laid and in view.
+	// In lane mode Points, OffsetPx and HeadingDeg are the lane's centre
+	// (midway between the boundaries), present where at least one
+	// boundary is, and WidthPx is 0.
 	Left  [][2]float64 `json:"left,omitempty"`
 	Right [][2]float64 `json:"right,omitempty"`
+	// LaneWidthPx is the lane's width at RefRow in lane mode: the
+	// horizontal distance between the boundaries' centrelines. LaneWidthM
+	// is the same on the floor. Both are absent (0) in stripe mode and in
+	// files written before lane mode.
+	LaneWidthPx float64 `json:"lane_width_px,omitempty"`
+	LaneWidthM  float64 `json:"lane_width_m,omitempty"`
 	// Tags name the conditions in this frame ("shadow", "gap", ...).
 	Tags []string `json:"tags,omitempty"`
 }

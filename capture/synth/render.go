@@ -98,7 +98,7 @@ type Renderer struct {
 	// as marks and the stripe is not drawn.
 	lane     laneGeom
 	haveLane bool
-	tex    *texture
+	tex      *texture
 	// shadowBox[i] is the bounding box of Light.Shadows[i] at t = 0
 	shadowBox [][4]float64
 	// specMin is the half-vector cosine below which a highlight is < 1e-3

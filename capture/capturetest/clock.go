@@ -6,6 +6,24 @@ import (
 	"time"
 )
 
+// Timeline is what a FakeCamera moves forward as simulated time passes.
+type Timeline interface {
+	Advance(d time.Duration)
+}
+
+// Sleeper is a Timeline on the process clock: Advance sleeps for d. Use it
+// inside a testing/synctest bubble, where the Supervisor and the pipeline
+// run on the process clock (v4l2.SystemClock, time.Ticker) and sleeping
+// costs no real time: the bubble's clock jumps to the next timer only when
+// every goroutine in it is blocked. Time then cannot run ahead of the code
+// under test, so a stall of d is seen as exactly d — no storm of stall
+// reports from a clock pumped faster than the goroutines run (Pump's risk),
+// and backoff waits after a Vanish step need nobody to move the clock.
+type Sleeper struct{}
+
+// Advance sleeps for d.
+func (Sleeper) Advance(d time.Duration) { time.Sleep(d) }
+
 // Clock is a manual clock implementing v4l2.Clock. Time moves only when
 // Advance is called (by a test or by a FakeCamera). Safe for concurrent use.
 type Clock struct {

@@ -70,8 +70,10 @@ func Skip(n int) Step { return Step{kind: stepSkip, n: n} }
 // blocking calls end when Interrupt is called (Supervisor.Close does).
 type FakeCamera struct {
 	// Clock, when set, is advanced by the fake as simulated time passes:
-	// Interval per served or skipped frame, Poll per stall poll.
-	Clock *Clock
+	// Interval per served or skipped frame, Poll per stall poll. A *Clock
+	// moves a manual clock; Sleeper sleeps instead, which inside a
+	// testing/synctest bubble moves the bubble's clock (see Sleeper).
+	Clock Timeline
 	// Interval between frames; default 1/30 s.
 	Interval time.Duration
 	// Poll is how often a stalled ReadRaw returns v4l2.ErrTimeout; default
@@ -117,10 +119,15 @@ func (c *FakeCamera) poll() time.Duration {
 	return 100 * time.Millisecond
 }
 
+// advance moves the fake's timestamps and its Clock by d. It releases
+// c.mu while the Clock moves: a Sleeper blocks, and Interrupt, Release and
+// Counts must not wait behind it.
 func (c *FakeCamera) advance(d time.Duration) {
 	c.ts += d
 	if c.Clock != nil {
+		c.mu.Unlock()
 		c.Clock.Advance(d)
+		c.mu.Lock()
 	}
 }
 

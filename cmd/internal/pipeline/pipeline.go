@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"gocv.io/x/gocv"
@@ -54,6 +55,10 @@ type Result struct {
 	// Tick marks a watchdog result: no frame, no image, no detection;
 	// Info is the last frame's.
 	Tick bool
+	// Drops is the number of frames the live pipeline had dropped as
+	// stale when this result was made (Stats.Drops so far), so that a
+	// sink can show the count while the run goes on.
+	Drops int
 }
 
 // FloorValues are the calibrated measurements of one frame.
@@ -134,6 +139,7 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 	}()
 
 	var st Stats
+	var drops atomic.Int64 // st.Drops, readable by the watchdog
 	var srcErr error
 	frames := make(chan item, 1)
 	results := make(chan item, 1)
@@ -159,6 +165,7 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 				if !ok {
 					continue
 				}
+				r.Drops = int(drops.Load())
 				select {
 				case ticks <- r:
 				default: // the sinks still have the previous tick: skip
@@ -198,8 +205,10 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 				case old := <-frames:
 					free <- old.mat
 					st.Drops++
+					drops.Add(1)
 				default:
 				}
+				it.res.Drops = st.Drops
 			}
 			select {
 			case frames <- it:
@@ -353,6 +362,7 @@ func (c *trackerClock) tick(period time.Duration) (Result, bool) {
 		return Result{}, false
 	}
 	r := c.last
+	r.Tick = true // also before the first frame, when c.last is empty
 	r.Est = c.tr.Tick(now.Sub(c.start))
 	r.Cue = guidance.Decide(r.Est)
 	r.Captured, r.Decided = time.Time{}, now

@@ -107,34 +107,43 @@ func notFound(reason string) Detection {
 // img. An empty, closed, unsupported, too small or too large frame gives
 // Found=false with the reason; OpenCV is never called on it.
 func (c *Classical) Detect(img gocv.Mat, hint Hint) Detection {
+	fr, why := c.load(img)
+	if why != "" {
+		return notFound(why)
+	}
+	return c.detect(fr, hint)
+}
+
+// load checks img and prepares the working images from it (see Detect);
+// a non-empty reason says why the frame cannot be used.
+func (c *Classical) load(img gocv.Mat) (fr frameGeom, reason string) {
 	if c.closed {
-		return notFound("detector closed")
+		return fr, "detector closed"
 	}
 	if img.Ptr() == nil || img.Empty() {
-		return notFound("empty frame")
+		return fr, "empty frame"
 	}
 	t := img.Type()
 	if t != gocv.MatTypeCV8UC3 && t != gocv.MatTypeCV8UC1 && t != gocv.MatTypeCV8UC4 {
-		return notFound(fmt.Sprintf("unsupported pixel type %v (want 8-bit BGR, grey or BGRA)", t))
+		return fr, fmt.Sprintf("unsupported pixel type %v (want 8-bit BGR, grey or BGRA)", t)
 	}
 	w, h := img.Cols(), img.Rows()
 	if w < MinFrameWidth || h < MinFrameHeight {
-		return notFound(fmt.Sprintf("frame too small (%d×%d; need at least %d×%d)", w, h, MinFrameWidth, MinFrameHeight))
+		return fr, fmt.Sprintf("frame too small (%d×%d; need at least %d×%d)", w, h, MinFrameWidth, MinFrameHeight)
 	}
 	if w > MaxFrameWidth || h > MaxFrameHeight {
-		return notFound(fmt.Sprintf("frame too large (%d×%d; at most %d×%d)", w, h, MaxFrameWidth, MaxFrameHeight))
+		return fr, fmt.Sprintf("frame too large (%d×%d; at most %d×%d)", w, h, MaxFrameWidth, MaxFrameHeight)
 	}
 	ww := min(w, c.cfg.WorkWidth)
 	wh := max(int(math.Round(float64(h)*float64(ww)/float64(w))), MinFrameHeight/2)
 	if err := c.prepare(img, image.Pt(ww, wh)); err != nil {
-		return notFound(err.Error())
+		return fr, err.Error()
 	}
-	fr := frameGeom{
+	return frameGeom{
 		inW: float64(w), inH: float64(h),
 		sx: float64(ww) / float64(w), sy: float64(wh) / float64(h),
 		ww: ww, wh: wh,
-	}
-	return c.detect(fr, hint)
+	}, ""
 }
 
 // prepare fills c.work, c.evidence and c.grey from img at working size sz.

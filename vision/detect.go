@@ -10,48 +10,13 @@ import (
 const frameSeed = 0x9E3779B97F4A7C15
 
 func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
-	l := c.layout(fr)
-	if l.n < 6 || l.x1-l.x0 < 16 {
-		return notFound("region of interest too small for this frame")
+	l, byBand, wantLight, wantDark, why := c.extract(fr)
+	if why != "" {
+		return notFound(why)
 	}
-	sigma := c.noiseSigma(l, fr.ww)
-	c.hairline = 0.006 * float64(fr.ww)
-	c.widths = c.ridgeWidths(fr, l, c.widths)
-	wantLight := c.cfg.Polarity != PolarityDark || c.hasTape
-	wantDark := c.cfg.Polarity != PolarityLight && !c.hasTape
-	c.cands = c.cands[:0]
-	if cap(c.byBand) < l.n {
-		c.byBand = make([][2]int, l.n)
-	}
-	byBand := c.byBand[:l.n]
-	for k := 0; k < l.n; k++ {
-		lo := len(c.cands)
-		c.bandCandidates(k, l, fr, sigma, c.widths, wantLight, wantDark)
-		byBand[k] = [2]int{lo, len(c.cands)}
-	}
-	if len(c.cands) == 0 {
-		return notFound("no candidates")
-	}
-
-	// The tracker's prediction, in working pixels: x(y) = xr − tan(h)·(y − yr)
-	// (the far end, smaller y, leans right for positive heading).
 	yRefIn := c.cfg.RefRow * fr.inH
 	yRefW := fr.toWorkY(yRefIn)
-	if hint.Valid {
-		xr := fr.toWorkX(fr.inW/2 + hint.OffsetPx)
-		th := math.Tan(hint.HeadingDeg * math.Pi / 180)
-		sec2 := 1 + th*th
-		// Uncertainties no smaller than 2 % of the width and 2°.
-		so := math.Max(hint.OffsetSigma, 0.02*fr.inW) * fr.sx
-		sh := math.Max(hint.HeadingSigma, 2) * math.Pi / 180
-		for i := range c.cands {
-			cd := &c.cands[i]
-			dy := (cd.y - yRefW) / fr.sy * fr.sx // in x-scaled working pixels
-			pred := xr - th*dy
-			sig := math.Hypot(so, sh*sec2*dy)
-			cd.gated = math.Abs(cd.x-pred) <= 3*sig+0.5*cd.w
-		}
-	}
+	c.gate(fr, hint, yRefW)
 
 	c.rng = frameSeed
 	slot := 0
@@ -100,6 +65,61 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		}
 	}
 	return c.report(fr, l, chosen, dark, fromPrior, second, hint, yRefIn, yRefW)
+}
+
+// extract lays out the bands of the region of interest and finds every
+// band's candidates (c.cands; byBand[k] is band k's index range). A
+// non-empty reason says why there is nothing to fit.
+func (c *Classical) extract(fr frameGeom) (l bandLayout, byBand [][2]int, wantLight, wantDark bool, reason string) {
+	l = c.layout(fr)
+	if l.n < 6 || l.x1-l.x0 < 16 {
+		return l, nil, false, false, "region of interest too small for this frame"
+	}
+	sigma := c.noiseSigma(l, fr.ww)
+	c.hairline = 0.006 * float64(fr.ww)
+	c.widths = c.ridgeWidths(fr, l, c.widths)
+	wantLight = c.cfg.Polarity != PolarityDark || c.hasTape
+	wantDark = c.cfg.Polarity != PolarityLight && !c.hasTape
+	c.cands = c.cands[:0]
+	if cap(c.byBand) < l.n {
+		c.byBand = make([][2]int, l.n)
+	}
+	byBand = c.byBand[:l.n]
+	for k := 0; k < l.n; k++ {
+		lo := len(c.cands)
+		c.bandCandidates(k, l, fr, sigma, c.widths, wantLight, wantDark)
+		byBand[k] = [2]int{lo, len(c.cands)}
+	}
+	if len(c.cands) == 0 {
+		return l, byBand, wantLight, wantDark, "no candidates"
+	}
+	return l, byBand, wantLight, wantDark, ""
+}
+
+// gate marks the candidates inside the prediction's gate (all of them
+// stay ungated when the hint is not valid). The prediction, in working
+// pixels: x(y) = xr − tan(h)·(y − yr) (the far end, smaller y, leans right
+// for positive heading).
+func (c *Classical) gate(fr frameGeom, hint Hint, yRefW float64) {
+	if !hint.Valid {
+		for i := range c.cands {
+			c.cands[i].gated = false
+		}
+		return
+	}
+	xr := fr.toWorkX(fr.inW/2 + hint.OffsetPx)
+	th := math.Tan(hint.HeadingDeg * math.Pi / 180)
+	sec2 := 1 + th*th
+	// Uncertainties no smaller than 2 % of the width and 2°.
+	so := math.Max(hint.OffsetSigma, 0.02*fr.inW) * fr.sx
+	sh := math.Max(hint.HeadingSigma, 2) * math.Pi / 180
+	for i := range c.cands {
+		cd := &c.cands[i]
+		dy := (cd.y - yRefW) / fr.sy * fr.sx // in x-scaled working pixels
+		pred := xr - th*dy
+		sig := math.Hypot(so, sh*sec2*dy)
+		cd.gated = math.Abs(cd.x-pred) <= 3*sig+0.5*cd.w
+	}
 }
 
 // acceptable: a fit that spans at least MinSpan of the ROI with support

@@ -48,10 +48,13 @@ type selector struct {
 	// already found (they may still gain support from its candidates, so
 	// a branch sharing the stripe's near end is scored in full).
 	sampleFree bool
+	// freeOnly: use no candidate of a line already found, not even for
+	// support (the second boundary of a lane is a line of its own).
+	freeOnly bool
 }
 
 func (s selector) ok(cd *candidate) bool {
-	return cd.dark == s.dark && (!s.gatedOnly || cd.gated)
+	return cd.dark == s.dark && (!s.gatedOnly || cd.gated) && (!s.freeOnly || !cd.taken)
 }
 
 func (s selector) sample(cd *candidate) bool {

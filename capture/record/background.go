@@ -22,9 +22,11 @@ type Background struct {
 	mats  []*gocv.Mat
 	done  chan struct{}
 	drops atomic.Uint64
-	mu    sync.Mutex
-	err   error
-	once  sync.Once
+	// recorded mirrors r.Frames() for readers on other goroutines.
+	recorded atomic.Uint64
+	mu       sync.Mutex
+	err      error
+	once     sync.Once
 }
 
 type bgItem struct {
@@ -53,6 +55,7 @@ func (b *Background) loop() {
 	defer close(b.done)
 	for it := range b.queue {
 		_ = b.r.Write(*it.m, it.info) // cannot fail: checked in Write
+		b.recorded.Store(uint64(b.r.Frames()))
 		if err := b.r.Err(); err != nil {
 			b.mu.Lock()
 			b.err = err
@@ -81,6 +84,10 @@ func (b *Background) Write(frame gocv.Mat, info capture.FrameInfo) error {
 // Drops is the number of frames not recorded because the encoder was
 // behind.
 func (b *Background) Drops() uint64 { return b.drops.Load() }
+
+// Recorded is the number of frames recorded so far; safe from any
+// goroutine while recording goes on (unlike Recorder().Frames()).
+func (b *Background) Recorded() uint64 { return b.recorded.Load() }
 
 // Err is why recording stopped, or nil.
 func (b *Background) Err() error {

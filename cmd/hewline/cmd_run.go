@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"errors"
+	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -57,6 +58,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	recTime := fs.Duration("record-rotate", 10*time.Minute, "start a new recording file after this long")
 	cueMM := fs.Float64("cue-full-scale-mm", 0, "with -calib: the floor offset in `MM` that gives the strongest cue (0 = a quarter of the frame width in pixels)")
 	watchdog := fs.Duration("watchdog", 20*time.Millisecond, "tick the fail-safe this often when no frame comes")
+	sf := addStatusFlags(fs)
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -83,6 +85,17 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if (*camera == "") == (*source == "") {
 		return usagef("give exactly one of -camera DEVICE or -source FILE")
 	}
+	// The status page's address and token are checked before anything
+	// starts: a page open to the network without a token is refused.
+	srv, err := sf.newStatus()
+	if err != nil {
+		return err
+	}
+	var health healthSetter
+	if srv != nil {
+		health = srv
+		defer srv.Close()
+	}
 	fmt.Fprintln(stdout, safetyShort)
 	fmt.Fprintln(stdout)
 	if site.File() != "" {
@@ -93,6 +106,24 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 
 	// Start-up checks: say what was found before anything moves.
+	if srv != nil {
+		statusExplicit := false
+		fs.Visit(func(f *flag.Flag) { statusExplicit = statusExplicit || f.Name == "status" })
+		if err := srv.Start(ctx); err != nil {
+			if statusExplicit {
+				return err
+			}
+			// The default page is a convenience, not a safety function:
+			// a busy port must not keep the vehicle from guiding.
+			fmt.Fprintf(stdout, "status page: NOT AVAILABLE: %v (-status ADDR to choose another)\n", err)
+			srv.Close()
+			srv, health = nil, nil
+		} else {
+			fmt.Fprintf(stdout, "status page: %s\n", statusURL(srv.Addr(), *sf.remote))
+		}
+	} else {
+		fmt.Fprintln(stdout, "status page: off")
+	}
 	tcfg, err := o.trackerConfig()
 	if err != nil {
 		return usagef("%v", err)
@@ -100,13 +131,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	var src liveSource
 	var transient func(error) bool
 	if *camera != "" {
-		cam, err := v4l2.OpenCamera(*camera, site.CameraPreference(), v4l2.Options{OnEvent: func(e v4l2.Event) {
-			if e.Kind.Faulty() {
-				fmt.Fprintf(stderr, "hewline run: %s: FAIL-SAFE\n", e)
-			} else {
-				fmt.Fprintf(stderr, "hewline run: %s\n", e)
-			}
-		}})
+		cam, err := v4l2.OpenCamera(*camera, site.CameraPreference(), v4l2.Options{OnEvent: cameraEvents(stderr, health, *camera)})
 		if err != nil {
 			return fmt.Errorf("camera %s: %w", *camera, err)
 		}
@@ -119,6 +144,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 			return err
 		}
 		src = newPaced(f, time.Now)
+		setHealth(health, "source", true, "rehearsal on "+*source+" (not a camera)")
 		fmt.Fprintf(stdout, "source:      %s (%dx%d at %.4g fps, paced; a rehearsal, not a camera)\n", *source, f.Info().Size.X, f.Info().Size.Y, f.Info().FPS)
 	}
 	defer src.Close()
@@ -282,14 +308,26 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if sender != nil {
 		sinks = append(sinks, &pipeline.StreamSink{Sender: sender})
 	}
+	watch := &outputWatch{Log: stderr, Every: 500 * time.Millisecond, Speaker: *speaker, Player: player, Rec: rec}
+	if health != nil {
+		watch.Health = health
+	}
+	if sender != nil {
+		watch.Stream = sinks[len(sinks)-1].(*pipeline.StreamSink)
+	}
 	if rec != nil {
 		sinks = append(sinks, &pipeline.RecordSink{B: rec})
 	}
 	if vib != nil {
-		sinks = append(sinks, &pipeline.HapticSink{V: vib, OnError: func(err error) {
+		watch.Haptic = &pipeline.HapticSink{V: vib, OnError: func(err error) {
 			fmt.Fprintf(stderr, "hewline run: VIBRATION CUES FAILED (the alarm goes on its other channels): %v\n", err)
-		}})
+		}}
+		sinks = append(sinks, watch.Haptic)
 	}
+	if srv != nil {
+		sinks = append(sinks, srv)
+	}
+	sinks = append(sinks, watch)
 	st, runErr := pipeline.Run(runCtx, src, pipeline.Config{
 		Detector: det, Tracker: tr, Floor: floor, Sinks: sinks,
 		Live: true, Watchdog: *watchdog, Transient: transient,
@@ -333,6 +371,15 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 	fmt.Fprintf(stdout, "stopped (%s): %d frames, %d dropped, %d faults, %d over the frame budget; track log %s\n", end, st.Frames, st.Drops, st.Faults, lat.missed, strings.Join(lw.Files(), ", "))
 	return runErr
+}
+
+// statusURL is the page's address as the user should open it.
+func statusURL(addr string, remote bool) string {
+	u := "http://" + addr + "/"
+	if remote {
+		return u + " (open to the network; every request needs the access token)"
+	}
+	return u + " (this computer only)"
 }
 
 func frameBudget(fps float64) time.Duration {

@@ -1,9 +1,13 @@
 package main
 
 import (
+	"bufio"
+	"io"
+	"net/http"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"syscall"
 	"testing"
@@ -217,4 +221,164 @@ func TestSiteFile(t *testing.T) {
 	if code == 0 || !strings.Contains(se, bad+":2:") {
 		t.Errorf("broken site file: exit %d, stderr %q; want an error naming %s:2", code, se, bad)
 	}
+}
+
+// TestRunStatusAddressChecks: the status page stays on this computer
+// unless asked otherwise, and an address open to the network is refused
+// without -status-remote and an access token, with a message saying what
+// to do — before any camera, speaker or file is touched.
+func TestRunStatusAddressChecks(t *testing.T) {
+	dir := t.TempDir()
+	short := filepath.Join(dir, "short.token")
+	os.WriteFile(short, []byte("abc\n"), 0o600)
+	empty := filepath.Join(dir, "empty.token")
+	os.WriteFile(empty, []byte("\n"), 0o600)
+	tests := map[string]struct {
+		args []string
+		want string
+	}{
+		"all interfaces":        {[]string{"-status", "0.0.0.0:8470"}, "is not a loopback address"},
+		"host address":          {[]string{"-status", "192.0.2.1:8470"}, "Add -status-remote and an access token"},
+		"remote without token":  {[]string{"-status", "0.0.0.0:8470", "-status-remote"}, "-status-remote needs an access token"},
+		"remote with short one": {[]string{"-status", "0.0.0.0:8470", "-status-remote", "-status-token-file", short}, "at least 12 characters"},
+		"empty token file":      {[]string{"-status", "0.0.0.0:8470", "-status-remote", "-status-token-file", empty}, "is empty"},
+		"not an address":        {[]string{"-status", "8470"}, "address"},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			logPath := filepath.Join(t.TempDir(), "t.ndjson")
+			args := append([]string{"run", "-source", "does-not-matter.avi", "-track", logPath}, tc.args...)
+			cmd := exec.Command(binary, args...)
+			cmd.Env = append(os.Environ(), "HEWLINE_STATUS_TOKEN=")
+			out, err := cmd.CombinedOutput()
+			ee, ok := err.(*exec.ExitError)
+			if !ok || ee.ExitCode() != 2 {
+				t.Fatalf("exit %v, want 2 (usage); output:\n%s", err, out)
+			}
+			if !strings.Contains(string(out), tc.want) {
+				t.Errorf("output lacks %q:\n%s", tc.want, out)
+			}
+			if _, err := os.Stat(logPath); err == nil {
+				t.Error("a track log was started before the address was refused")
+			}
+		})
+	}
+}
+
+// TestRunServesStatus: a live run on a paced recording serves the status
+// page on the address it prints, behind the access token it was given:
+// /metrics counts the frames, exposes the live drop counter and latency
+// histogram, and reports the health of the source and the speaker.
+func TestRunServesStatus(t *testing.T) {
+	clip := shortClip(t, 120) // 4 s paced; the test needs about one
+	dir := t.TempDir()
+	tokenFile := filepath.Join(dir, "status.token")
+	const token = "warehouse-7-token"
+	os.WriteFile(tokenFile, []byte(token+"\n"), 0o600)
+	cmd := exec.Command(binary, "run", "-speaker-stall", "3s", "-source", clip, "-track", filepath.Join(dir, "run.ndjson"),
+		"-status", "127.0.0.1:0", "-status-token-file", tokenFile)
+	cmd.Env = append(os.Environ(), "ALSA_CONFIG_PATH="+nullALSA(t))
+	stdout, err := cmd.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var errOut strings.Builder
+	cmd.Stderr = &errOut
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	defer cmd.Process.Kill()
+	urls := make(chan string, 1)
+	var out strings.Builder
+	go func() {
+		sc := bufio.NewScanner(stdout)
+		sent := false
+		for sc.Scan() {
+			out.WriteString(sc.Text() + "\n")
+			if f := strings.Fields(sc.Text()); !sent && len(f) >= 3 && f[0] == "status" && f[1] == "page:" {
+				urls <- f[2]
+				sent = true
+			}
+		}
+		close(urls)
+	}()
+	var base string
+	select {
+	case base = <-urls:
+	case <-time.After(20 * time.Second):
+	}
+	if !strings.HasPrefix(base, "http://127.0.0.1:") {
+		t.Fatalf("no status page address printed (%q); stderr:\n%s", base, errOut.String())
+	}
+	get := func(path, tok string) (int, string) {
+		req, _ := http.NewRequest("GET", base+path, nil)
+		if tok != "" {
+			req.Header.Set("Authorization", "Bearer "+tok)
+		}
+		resp, err := http.DefaultClient.Do(req)
+		if err != nil {
+			t.Fatalf("GET %s: %v", path, err)
+		}
+		defer resp.Body.Close()
+		b, _ := io.ReadAll(resp.Body)
+		return resp.StatusCode, string(b)
+	}
+	if code, _ := get("metrics", ""); code != http.StatusUnauthorized {
+		t.Errorf("/metrics without the token: %d, want 401", code)
+	}
+	if code, _ := get("metrics", "wrong-token-0000"); code != http.StatusUnauthorized {
+		t.Errorf("/metrics with a wrong token: %d, want 401", code)
+	}
+	// Wait until a few dozen frames went through, then read the metrics.
+	var metrics string
+	deadline := time.Now().Add(20 * time.Second)
+	for {
+		code, body := get("metrics", token)
+		if code != http.StatusOK {
+			t.Fatalf("/metrics with the token: %d %s", code, body)
+		}
+		metrics = body
+		if v := metricValue(metrics, "hewline_frames_total"); v >= 30 {
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("fewer than 30 frames counted in 20 s:\n%s", metrics)
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+	for _, want := range []string{
+		"# TYPE hewline_drops_total counter",
+		"# TYPE hewline_decision_latency_seconds histogram",
+		"hewline_state_seconds_total{state=\"holding\"}",
+		"hewline_alarms_total",
+		"hewline_health{part=\"source\"} 1",
+		"hewline_health{part=\"speaker\"} 1",
+	} {
+		if !strings.Contains(metrics, want) {
+			t.Errorf("/metrics lacks %q:\n%s", want, metrics)
+		}
+	}
+	if n := metricValue(metrics, "hewline_decision_latency_seconds_count"); n < 30 {
+		t.Errorf("latency histogram holds %v observations, want every frame (≥ 30)", n)
+	}
+	cmd.Process.Signal(syscall.SIGTERM)
+	if err := cmd.Wait(); err != nil {
+		t.Fatalf("run after SIGTERM: %v\n%s", err, errOut.String())
+	}
+	if !strings.Contains(out.String(), "(this computer only)") {
+		t.Errorf("start-up does not say the page is local:\n%s", out.String())
+	}
+}
+
+// metricValue returns the value of an unlabelled sample, or -1.
+func metricValue(text, name string) float64 {
+	for _, line := range strings.Split(text, "\n") {
+		if v, ok := strings.CutPrefix(line, name+" "); ok {
+			f, err := strconv.ParseFloat(v, 64)
+			if err == nil {
+				return f
+			}
+		}
+	}
+	return -1
 }

@@ -171,7 +171,7 @@ func (s *Server) WriteMetrics(w io.Writer) error {
 	p.sample("hewline_frames_total", float64(s.frames))
 	p.family("hewline_ticks_total", "counter", "Watchdog results without a frame (the source was silent).")
 	p.sample("hewline_ticks_total", float64(s.ticks))
-	p.family("hewline_drops_total", "counter", "Frames the live pipeline dropped as stale, as set by the run loop.")
+	p.family("hewline_drops_total", "counter", "Frames the live pipeline dropped as stale (Result.Drops, or as set by the run loop).")
 	p.sample("hewline_drops_total", float64(s.drops))
 	p.family("hewline_frames_skipped_total", "counter", "Frame indices missing between processed frames (drops and capture losses).")
 	p.sample("hewline_frames_skipped_total", float64(s.skipped))

@@ -112,6 +112,9 @@ func (s *Server) record(r *pipeline.Result, now time.Time) {
 			s.latency.observe(r.Decided.Sub(r.Captured).Seconds())
 		}
 	}
+	if r.Drops > 0 && uint64(r.Drops) > s.drops {
+		s.drops = uint64(r.Drops) // the live pipeline's count so far
+	}
 	if r.Est.Alarm && (!s.haveLast || !s.cur.Est.Alarm) {
 		s.alarms++
 	}
@@ -187,7 +190,9 @@ func (s *Server) SetHealth(name string, ok bool, detail string) {
 }
 
 // SetDrops sets the number of frames the run dropped so far (the live
-// pipeline's Stats.Drops), exported as hewline_drops_total. A counter
+// pipeline's Stats.Drops), exported as hewline_drops_total. Frame does the
+// same from each Result's Drops, so a run that passes the Server as a sink
+// needs no call. A counter
 // never goes down: a smaller value than before is ignored. Safe for
 // concurrent use.
 func (s *Server) SetDrops(total int) {

@@ -12,7 +12,8 @@ type candidate struct {
 	contrast float64 // Weber contrast against the weaker side
 	snr      float64 // contrast step in units of the profile noise
 	sat      bool    // the stripe is saturated here (a lamp reflection?)
-	dark     bool    // darker than the floor
+	dark     bool    // darker than the floor (luminance)
+	chroma   bool    // found in the chroma channel (a colour ridge)
 	gated    bool    // within the tracker's prediction gate
 	taken    bool    // supports the line already found
 	rank     float64 // ordering within the band, strongest first
@@ -109,34 +110,153 @@ func (c *Classical) ridgeWidths(fr frameGeom, l bandLayout, dst []int) []int {
 	return dst
 }
 
-// bandCandidates appends to c.cands the stripe candidates of band k.
-func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma float64, widths []int, wantLight, wantDark bool) {
+// bandCandidates appends to c.cands the stripe candidates of band k:
+// luminance ridges of the wanted polarities, then (when the chroma channel
+// is on) ridges of chroma distance from the band's floor colour.
+func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma float64, widths []int, wantLight, wantDark, chroma bool) {
 	lo, hi := l.rows(k)
 	n := l.x1 - l.x0
 	p, gm := c.profile[:n], c.gmax[:n]
+	q1, q2 := c.pc1[:n], c.pc2[:n]
 	for i := range p {
 		p[i], gm[i] = 0, 0
 	}
+	if chroma {
+		for i := range q1 {
+			q1[i], q2[i] = 0, 0
+		}
+	}
 	for y := lo; y < hi; y++ {
-		row := c.evidence[y*fr.ww+l.x0 : y*fr.ww+l.x1]
-		grow := c.grey[y*fr.ww+l.x0 : y*fr.ww+l.x1]
+		off := y*fr.ww + l.x0
+		row := c.evidence[off : off+n]
+		grow := c.grey[off : off+n]
 		for i, v := range row {
 			p[i] += float64(v)
 			if g := float64(grow[i]); g > gm[i] {
 				gm[i] = g
 			}
 		}
+		if chroma {
+			r1, r2 := c.cr1[off:off+n], c.cr2[off:off+n]
+			for i := range q1 {
+				q1[i] += float64(r1[i])
+				q2[i] += float64(r2[i])
+			}
+		}
 	}
 	inv := 1 / float64(hi-lo)
-	P, P2 := c.prefix[:n+1], c.prefix2[:n+1]
-	P[0], P2[0] = 0, 0
 	for i := range p {
 		p[i] *= inv
-		P[i+1] = P[i] + p[i]
-		P2[i+1] = P2[i] + p[i]*p[i]
 	}
-	sigmaBand := sigma * math.Sqrt(inv)
 	yc := l.centre(k)
+	c.prefixSums(p)
+	c.ridges(p, gm, widths, l, k, yc, sigma*math.Sqrt(inv), wantLight, wantDark, false)
+	if !chroma {
+		return
+	}
+	// Chroma distance from the floor's colour, the band's median
+	// chromaticity (the stripe covers a small part of the band), turned
+	// into a profile the same ridge filter reads: the band's luminance
+	// level times (1 + chromaGain·distance), so that its Weber contrast is
+	// chromaGain·distance whatever the light.
+	base := c.medianStrided(p, 1)
+	for i := range q1 {
+		q1[i] *= inv
+		q2[i] *= inv
+	}
+	b1, b2 := c.medianStrided(q1, 2), c.medianStrided(q2, 2)
+	for i := range p {
+		p[i] = base * (1 + chromaGain*math.Hypot(q1[i]-b1, q2[i]-b2))
+	}
+	c.prefixSums(p)
+	c.ridges(p, gm, widths, l, k, yc, c.profileNoise(p), true, false, true)
+}
+
+// chromaGain scales chromaticity distance into Weber contrast: a tape
+// whose chromaticity differs from the floor's by 0.1 (a faint tint) just
+// passes MinContrast 0.05; yellow, green or blue tape on grey concrete
+// differ by about 1 (measured on the nominal tape colours in config.go).
+const chromaGain = 0.5
+
+// prefixSums fills c.prefix and c.prefix2 with the running sums of p and p².
+func (c *Classical) prefixSums(p []float64) {
+	P, P2 := c.prefix[:len(p)+1], c.prefix2[:len(p)+1]
+	P[0], P2[0] = 0, 0
+	for i, v := range p {
+		P[i+1] = P[i] + v
+		P2[i+1] = P2[i] + v*v
+	}
+}
+
+// medianStrided is the median of every stride-th value of v (scratch
+// memory in c.scratch; v is not changed).
+func (c *Classical) medianStrided(v []float64, stride int) float64 {
+	s := c.scratch[:0]
+	for i := 0; i < len(v); i += stride {
+		s = append(s, v[i])
+	}
+	c.scratch = s
+	return quickMedian(s)
+}
+
+// profileNoise estimates the noise of one band profile from the median
+// absolute difference of neighbours (as noiseSigma does for the image).
+func (c *Classical) profileNoise(p []float64) float64 {
+	s := c.scratch[:0]
+	for i := 1; i < len(p); i++ {
+		s = append(s, math.Abs(p[i]-p[i-1]))
+	}
+	c.scratch = s
+	if len(s) == 0 {
+		return 1
+	}
+	return math.Max(1.4826*quickMedian(s)/math.Sqrt2, 0.05)
+}
+
+// quickMedian returns the median (the upper one for an even count) of s,
+// reordering s (Hoare's selection).
+func quickMedian(s []float64) float64 {
+	if len(s) == 0 {
+		return 0
+	}
+	k := len(s) / 2
+	lo, hi := 0, len(s)-1
+	for lo < hi {
+		piv := s[(lo+hi)/2]
+		i, j := lo, hi
+		for i <= j {
+			for s[i] < piv {
+				i++
+			}
+			for s[j] > piv {
+				j--
+			}
+			if i <= j {
+				s[i], s[j] = s[j], s[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return s[k]
+		}
+	}
+	return s[k]
+}
+
+// ridges runs the bank of box ridge filters over profile p (prefix sums
+// in c.prefix, c.prefix2; per-element noise sigmaBand) and appends the
+// strongest non-overlapping candidates, at most maxPerBand, to c.cands,
+// marked as chroma candidates when chroma is set (p is then the chroma
+// profile).
+func (c *Classical) ridges(p, gm []float64, widths []int, l bandLayout, k int, yc, sigmaBand float64, wantLight, wantDark, chroma bool) {
+	n := len(p)
+	P, P2 := c.prefix[:n+1], c.prefix2[:n+1]
 	bc := c.bandCands[:0]
 	minC, minSNR := c.cfg.MinContrast, c.cfg.MinSNR
 	for _, w := range widths {
@@ -173,10 +293,10 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 			cL, cD := sL/side, sD/side
 			// Emit the previous position if it was a local maximum.
 			if prevOKL && prevL >= prev2L && prevL > cL {
-				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevL, prevL*prevSide/noise, false)
+				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevL, prevL*prevSide/noise, false, chroma)
 			}
 			if prevOKD && prevD >= prev2D && prevD > cD {
-				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevD, prevD*prevSide/noise, true)
+				bc = c.addCandidate(bc, p, gm, P, P2, prevPos, w, f, k, yc, prevD, prevD*prevSide/noise, true, chroma)
 			}
 			prev2L, prev2D = prevL, prevD
 			prevL, prevD, prevPos, prevSide = cL, cD, c0, side
@@ -185,7 +305,7 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 		}
 	}
 	// Non-maximum suppression across widths: strongest first, drop any
-	// candidate overlapping a kept one of the same polarity.
+	// candidate overlapping a kept one of the same channel.
 	for i := range bc {
 		bc[i].rank = bc[i].contrast * math.Sqrt(bc[i].snr)
 	}
@@ -198,7 +318,7 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	for i := range bc {
 		ok := true
 		for j := 0; j < kept; j++ {
-			if bc[j].dark == bc[i].dark && math.Abs(bc[j].x-bc[i].x) < 0.5*math.Max(bc[j].w, bc[i].w) {
+			if bc[j].dark == bc[i].dark && bc[j].chroma == bc[i].chroma && math.Abs(bc[j].x-bc[i].x) < 0.5*math.Max(bc[j].w, bc[i].w) {
 				ok = false
 				break
 			}
@@ -211,9 +331,10 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 			}
 		}
 	}
+	x0 := float64(l.x0)
 	for i := 0; i < kept; i++ {
 		cd := bc[i]
-		cd.x += float64(l.x0)
+		cd.x += x0
 		c.cands = append(c.cands, cd)
 	}
 	c.bandCands = bc[:0]
@@ -238,7 +359,7 @@ func crossing(p []float64, pk int, level, sgn float64, dir, limit int) float64 {
 // addCandidate refines the ridge response at centre box [c0, c0+w) into a
 // candidate (half-height edges), confirms it with the Sauvola threshold,
 // and appends it to bc.
-func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, f, band int, yc, contrast, snr float64, dark bool) []candidate {
+func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, f, band int, yc, contrast, snr float64, dark, chroma bool) []candidate {
 	n := len(p)
 	sgn := 1.0
 	if dark {
@@ -326,7 +447,8 @@ func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, 
 	return append(bc, candidate{
 		band: band, y: yc, x: x, w: width,
 		contrast: contrast, snr: snr,
-		sat:  !dark && float64(satN) >= 0.5*float64(tot),
-		dark: dark,
+		sat:    !dark && float64(satN) >= 0.5*float64(tot),
+		dark:   dark,
+		chroma: chroma,
 	})
 }

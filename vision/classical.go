@@ -21,7 +21,10 @@ const (
 //
 //  1. downscale the frame to Config.WorkWidth (the cost then does not grow
 //     with the input size) and form an evidence image: luminance, plus
-//     colour evidence when a tape colour is configured;
+//     colour evidence when a tape colour is configured; without one, a
+//     chromaticity image (opponent colours over luminance) as well, so
+//     that a tape of the floor's luminance but another colour (green on
+//     concrete, yellow on pale tiles or on an over-exposed floor) is seen;
 //  2. in horizontal bands from the bottom of the region of interest up,
 //     average the band's rows into a profile and look for stripe
 //     candidates with a bank of box ridge filters (a centre box against a
@@ -30,7 +33,10 @@ const (
 //     or a floor-colour change, bright on one side only, does not. The
 //     contrast is measured as a ratio to the side level (Weber contrast),
 //     so it does not change when the light dims or a shadow falls, and
-//     against the frame's measured noise;
+//     against the frame's measured noise. The chroma channel runs the
+//     same filters on each band's distance from the floor's (median)
+//     chromaticity; grey distractors (grout, cracks, tyre marks, shadows)
+//     are invisible in it;
 //  3. confirm each candidate with a Sauvola local threshold over a window
 //     three stripe widths wide, and measure its edges at half height for
 //     a sub-pixel centre and width;
@@ -54,6 +60,11 @@ type Classical struct {
 	haveWork  bool
 	evidence  []float32 // working-size evidence image, row-major
 	grey      []uint8   // working-size luminance, for saturation tests
+	cr1, cr2  []float32 // working-size chromaticity (R−G, (R+G)/2−B over luminance)
+	chromaOn  bool      // this frame has chromaticity (colour input, no tape colour set)
+	pc1, pc2  []float64 // band profiles of cr1, cr2
+	scratch   []float64 // for medians
+	chans     []selector
 	profile   []float64
 	gmax      []float64
 	prefix    []float64
@@ -158,6 +169,11 @@ func (c *Classical) prepare(img gocv.Mat, sz image.Point) error {
 		n := sz.X * sz.Y
 		c.evidence = make([]float32, n)
 		c.grey = make([]uint8, n)
+		c.cr1 = make([]float32, n)
+		c.cr2 = make([]float32, n)
+		c.pc1 = make([]float64, sz.X)
+		c.pc2 = make([]float64, sz.X)
+		c.scratch = make([]float64, 0, sz.X)
 		c.profile = make([]float64, sz.X)
 		c.gmax = make([]float64, sz.X)
 		c.prefix = make([]float64, sz.X+1)
@@ -181,6 +197,8 @@ func (c *Classical) prepare(img gocv.Mat, sz image.Point) error {
 		return fmt.Errorf("could not read the frame: short buffer")
 	}
 	ev, gr := c.evidence, c.grey
+	// Without a configured tape colour, chroma is a channel of its own.
+	c.chromaOn = ch >= 3 && !c.hasTape
 	if ch == 1 {
 		for i := 0; i < n; i++ {
 			ev[i] = float32(data[i])
@@ -194,6 +212,14 @@ func (c *Classical) prepare(img gocv.Mat, sz image.Point) error {
 		// Luminance with the ITU-R BT.601 weights (as OpenCV's BGR2GRAY).
 		y := 0.114*b + 0.587*g + 0.299*r
 		gr[i] = uint8(y + 0.5)
+		if c.chromaOn {
+			// Chromaticity: the two opponent colour axes divided by the
+			// luminance, so that a shadow or an exposure change leaves it
+			// as it is (+16 keeps the noise of dark pixels bounded).
+			k := 1 / (y + 16)
+			c.cr1[i] = float32((r - g) * k)
+			c.cr2[i] = float32(((r+g)/2 - b) * k)
+		}
 		if c.hasTape {
 			m := (b + g + r) / 3
 			// Colour evidence: the pixel's chroma projected on the tape's

@@ -20,28 +20,28 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 
 	c.rng = frameSeed
 	slot := 0
+	chans := c.channels(wantLight, wantDark)
 	var bestFull, bestGated *fitResult
-	var bestFullDark, bestGatedDark bool
-	for _, dark := range [2]bool{false, true} {
-		if (dark && !wantDark) || (!dark && !wantLight) {
-			continue
-		}
-		r := c.ransac(l, fr.ww, byBand, selector{dark: dark}, slot)
+	var bestFullSel, bestGatedSel selector
+	for _, sel := range chans {
+		r := c.ransac(l, fr.ww, byBand, sel, slot)
 		slot++
 		if c.acceptable(r, l) && (bestFull == nil || r.score > bestFull.score) {
-			bestFull, bestFullDark = r, dark
+			bestFull, bestFullSel = r, sel
 		}
 		if hint.Valid {
-			g := c.ransac(l, fr.ww, byBand, selector{dark: dark, gatedOnly: true}, slot)
+			gs := sel
+			gs.gatedOnly = true
+			g := c.ransac(l, fr.ww, byBand, gs, slot)
 			slot++
 			if c.acceptable(g, l) && (bestGated == nil || g.score > bestGated.score) {
-				bestGated, bestGatedDark = g, dark
+				bestGated, bestGatedSel = g, sel
 			}
 		}
 	}
-	chosen, dark, fromPrior := bestFull, bestFullDark, false
+	chosen, chosenSel, fromPrior := bestFull, bestFullSel, false
 	if bestGated != nil && (bestFull == nil || bestGated.score >= 0.6*bestFull.score) {
-		chosen, dark, fromPrior = bestGated, bestGatedDark, true
+		chosen, chosenSel, fromPrior = bestGated, bestGatedSel, true
 	}
 	if chosen == nil {
 		return notFound(c.whyNot(l))
@@ -54,17 +54,33 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		cd.taken = math.Abs(cd.x-chosen.centre.x(cd.y)) <= math.Max(1.5*chosen.width.x(cd.y), 2*tolerance(cd, fr.ww))
 	}
 	second := 0.0
-	for _, d := range [2]bool{false, true} {
-		if (d && !wantDark) || (!d && !wantLight) {
-			continue
-		}
-		r := c.ransac(l, fr.ww, byBand, selector{dark: d, gatedOnly: fromPrior, sampleFree: true}, slot)
+	for _, sel := range chans {
+		sel.gatedOnly, sel.sampleFree = fromPrior, true
+		r := c.ransac(l, fr.ww, byBand, sel, slot)
 		slot++
 		if c.acceptable(r, l) {
 			second = math.Max(second, r.score)
 		}
 	}
-	return c.report(fr, l, chosen, dark, fromPrior, second, hint, yRefIn, yRefW)
+	return c.report(fr, l, chosen, chosenSel.dark, fromPrior, second, hint, yRefIn, yRefW)
+}
+
+// channels lists the evidence the fit tries: luminance lighter and darker
+// than the floor as wanted, and chroma when this frame has it (see
+// Classical.prepare). The list lives in c.chans.
+func (c *Classical) channels(wantLight, wantDark bool) []selector {
+	s := c.chans[:0]
+	if wantLight {
+		s = append(s, selector{})
+	}
+	if wantDark {
+		s = append(s, selector{dark: true})
+	}
+	if c.chromaOn {
+		s = append(s, selector{chroma: true})
+	}
+	c.chans = s
+	return s
 }
 
 // extract lays out the bands of the region of interest and finds every
@@ -87,7 +103,7 @@ func (c *Classical) extract(fr frameGeom) (l bandLayout, byBand [][2]int, wantLi
 	byBand = c.byBand[:l.n]
 	for k := 0; k < l.n; k++ {
 		lo := len(c.cands)
-		c.bandCandidates(k, l, fr, sigma, c.widths, wantLight, wantDark)
+		c.bandCandidates(k, l, fr, sigma, c.widths, wantLight, wantDark, c.chromaOn)
 		byBand[k] = [2]int{lo, len(c.cands)}
 	}
 	if len(c.cands) == 0 {

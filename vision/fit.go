@@ -36,13 +36,14 @@ type fitResult struct {
 // fitter holds the fit's scratch memory.
 type fitter struct {
 	best, trial []int
-	res         [6]fitResult
+	res         [9]fitResult // up to three channels × (full, gated, second)
 	idx         []int
 }
 
 // selector picks the candidates one fit may use.
 type selector struct {
-	dark      bool // the polarity
+	dark      bool // the polarity (luminance channels)
+	chroma    bool // the chroma channel instead (dark is then false)
 	gatedOnly bool // only candidates inside the prediction gate
 	// sampleFree: draw hypotheses only from candidates off the line
 	// already found (they may still gain support from its candidates, so
@@ -54,7 +55,7 @@ type selector struct {
 }
 
 func (s selector) ok(cd *candidate) bool {
-	return cd.dark == s.dark && (!s.gatedOnly || cd.gated) && (!s.freeOnly || !cd.taken)
+	return cd.dark == s.dark && cd.chroma == s.chroma && (!s.gatedOnly || cd.gated) && (!s.freeOnly || !cd.taken)
 }
 
 func (s selector) sample(cd *candidate) bool {

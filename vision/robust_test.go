@@ -3,6 +3,8 @@ package vision
 import (
 	"math"
 	"testing"
+
+	"gocv.io/x/gocv"
 )
 
 // Scenes without a stripe must not be reported with confidence ≥ 0.5
@@ -136,5 +138,45 @@ func TestJunctionHint(t *testing.T) {
 	t.Logf("hint on the branch: conf %.2f off %.1f head %.1f", d.Confidence, d.OffsetPx, d.HeadingDeg)
 	if math.Abs(d.HeadingDeg-bs.truthHeading(ref)) > 3 {
 		t.Errorf("heading %.1f°, the branch's is %.1f°", d.HeadingDeg, bs.truthHeading(ref))
+	}
+}
+
+// A coloured tape whose luminance equals the floor's is invisible to a
+// luminance detector; with no tape colour configured the chroma channel
+// must still find it. The tape colours are chosen so that their ITU-R
+// BT.601 luma (0.299 R + 0.587 G + 0.114 B, the weights of OpenCV's
+// BGR2GRAY) equals the concrete's, 115.9. A grey copy of the same frame
+// carries no evidence at all and must not be claimed.
+func TestIsoluminantColourTape(t *testing.T) {
+	luma := func(c [3]float64) float64 { return 0.114*c[0] + 0.587*c[1] + 0.299*c[2] }
+	tests := map[string][3]float64{
+		"green":  {60, 168, 35},
+		"yellow": {20, 128, 128},
+		"blue":   {240, 120, 60},
+	}
+	for name, tape := range tests {
+		t.Run(name, func(t *testing.T) {
+			if d := math.Abs(luma(tape) - luma(concrete)); d > 2.5 {
+				t.Fatalf("test colour not isoluminant: luma %.1f vs %.1f", luma(tape), luma(concrete))
+			}
+			s := baseScene(640, 480)
+			s.stripe = tape
+			img := s.draw(t)
+			defer img.Close()
+			det, _ := NewClassical(DefaultConfig())
+			defer det.Close()
+			d := det.Detect(img, Hint{})
+			t.Logf("colour: found %v conf %.2f reason %q off %.1f", d.Found, d.Confidence, d.Reason, d.OffsetPx)
+			checkAgainst(t, s, d)
+
+			grey := gocv.NewMat()
+			defer grey.Close()
+			gocv.CvtColor(img, &grey, gocv.ColorBGRToGray)
+			d = det.Detect(grey, Hint{})
+			t.Logf("grey: found %v conf %.2f reason %q off %.1f", d.Found, d.Confidence, d.Reason, d.OffsetPx)
+			if d.Found && d.Confidence >= 0.5 {
+				t.Errorf("grey copy of an isoluminant tape: found with confidence %.2f", d.Confidence)
+			}
+		})
 	}
 }

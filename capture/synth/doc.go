@@ -46,8 +46,9 @@
 // and edges are sampled every 5 mm, projected through the same camera model
 // (distortion included) and intersected with image rows. Points holds one
 // [x, y] per even row from the bottom up, the first crossing along the path,
-// only where the line is laid (not in a gap, not past its end) and inside
-// the image; dashes count as laid. OffsetPx, HeadingDeg and WidthPx are
+// only where the line is laid (not in a gap, not past its end), inside
+// the image and not hidden by a prop; dashes and dots count as laid. With
+// a rolling shutter each row's crossing uses that row's camera pose. OffsetPx, HeadingDeg and WidthPx are
 // taken at the reference row 0.8·Height with package vision's conventions
 // (OffsetPx = x − W/2). Visible is true when the laid line crosses at least
 // half the sampled rows of the lower half of the image. OffsetM and
@@ -60,16 +61,14 @@
 // # Scenarios
 //
 // Names lists them; Lookup returns one. All are 640×480 at 30 fps, 300
-// frames, variations of "weave" (the demo: even light, concrete, yellow
-// 50 mm tape, weaving at 1 m/s): gap (a 1.6 m gap, then the end of the
-// line), curves (radius down to 1.5 m), rack-shadows, walker (a moving
-// shadow), glare, worn, floor-marks (tyre marks, joints, a crack), tiles,
-// dim, flicker, exposure-jumps, shake (2 m/s with vibration and blur),
-// fisheye, narrow (5 mm line, 3–5 px), low-camera (grazing, horizon in
-// view), branch (a branch and a crossing bar), dashed, tape-wide,
-// tape-white, tape-blue, tape-green, tape-black (dark on light) and
-// dark-floor. Scenario.Resized gives any other resolution. The warehouse is
-// invented; colours are chosen by eye, not measured.
+// frames (fisheye-tight 360), variations of "weave" (the demo: even light,
+// concrete, yellow 50 mm tape, weaving at 1 m/s): gap (a 1.6 m gap, then
+// the end of the line), curves (radius down to 1.5 m), rack-shadows,
+// walker (a moving shadow), glare, worn, floor-marks (tyre marks, joints, a
+// crack), tiles, dim, flicker, exposure-jumps, shake (2 m/s with vibration
+// and blur), fisheye, narrow (5 mm line, 3–5 px), branch (a branch and a
+// crossing bar), tape-wide, tape-white, tape-blue, tape-green, tape-black
+// (dark on light) and dark-floor.
 //
 // Lane mode (Scenario.Follow = "lane"): the cart drives along Stripe.Path,
 // which is not drawn; the lane's two boundary lines run parallel to it at
@@ -88,7 +87,23 @@
 // camera, not with the floor. Scenarios reflections (stripe mode, with a
 // gap in the tape) and lane-reflections.
 //
-// Not modelled yet: JPEG blocking,
-// auto-exposure drift, rolling-shutter geometry (only its flicker bands),
-// walls and racks as 3-D geometry.
+// Cheap, low and wide-angle cameras and uneven markings (scenarios_camera.go):
+// dashed (300/300 mm), dashed-short (100/150 mm), dashed-long (500/700 mm),
+// dotted (80 mm dots), low-camera (5 cm up, looking level: the horizon
+// below the middle, rack uprights, windows and a person above it),
+// blur-heavy (dashes smeared into blobs), rolling-shutter (per-row poses),
+// exposure-drift (automatic exposure and white balance hunting), jpeg-low
+// (quality 10), fisheye-tight (strong barrel distortion, the line leaving
+// the frame at the side in the bends) and uneven-paint (width and colour
+// varying, repainted stretches).
+//
+// Scenario.Resized gives any other resolution (same horizontal field of
+// view, square pixels). The warehouse is invented; colours are chosen by
+// eye, not measured.
+//
+// Props (people, rack uprights) are flat cut-outs facing the camera, not
+// anti-aliased; the backdrop is at infinity (no parallax). JPEG blocking
+// goes through OpenCV's own encoder. Not modelled: walls and racks as 3-D
+// geometry, a real camera's exposure controller (the drift is a smooth
+// random signal), shadows cast by props.
 package synth

@@ -71,7 +71,7 @@ func TestRayCast(t *testing.T) {
 		t.Fatal(err)
 	}
 	st := r.cartAt(0)
-	r.castRows(&st, 0, r.h)
+	r.castRows([]cartState{st}, 0, r.h)
 	cam := sc.Camera
 	th := rad(cam.PitchDeg)
 	horizon := cam.Cy - cam.Fy*math.Tan(th)

@@ -21,16 +21,54 @@ const (
 	kFloor    = 0
 	kBackdrop = 1
 	kInvalid  = 2 // outside the lens model's one-to-one range: black
+	kProp     = 3 // a Prop in front of the floor or backdrop
 )
 
 // markGeom is a Mark placed in the world.
 type markGeom struct {
-	m    Mark
-	g    geom
-	hw   float64
-	from float64
-	to   float64
-	seed uint64
+	m Mark
+	g geom
+	// hw is the largest half-width anywhere along the mark (for the
+	// search); hw0 is the nominal half-width WidthM/2.
+	hw, hw0 float64
+	from    float64
+	to      float64
+	seed    uint64
+}
+
+// hwAt is the mark's half-width at path position s: a patch's width, or
+// the nominal width varied by WidthVar.
+func (mg *markGeom) hwAt(s float64) float64 {
+	for i := range mg.m.Patches {
+		if p := &mg.m.Patches[i]; s >= p.FromM && s < p.ToM && p.WidthM > 0 {
+			return p.WidthM / 2
+		}
+	}
+	if mg.m.WidthVar == 0 {
+		return mg.hw0
+	}
+	return mg.hw0 * (1 + mg.m.WidthVar*(2*valueNoise(mg.seed+3, s/0.6, 0.5)-1))
+}
+
+// colourAt is the mark's colour at path position s: a patch's colour, or
+// the mark's colour faded by FadeVar (towards black when negative, towards
+// a bleached off-white when positive).
+func (mg *markGeom) colourAt(s float64) RGB {
+	for i := range mg.m.Patches {
+		if p := &mg.m.Patches[i]; s >= p.FromM && s < p.ToM {
+			return p.Colour
+		}
+	}
+	c := mg.m.Colour
+	if mg.m.FadeVar == 0 {
+		return c
+	}
+	f := mg.m.FadeVar * (2*valueNoise(mg.seed+4, s/0.9, 0.5) - 1)
+	if f < 0 {
+		return RGB{c.R * (1 + f), c.G * (1 + f), c.B * (1 + f)}
+	}
+	const bl = 0.85 // bleached paint, by eye
+	return RGB{lerp(c.R, bl, f), lerp(c.G, bl, f), lerp(c.B, bl*0.95, f)}
 }
 
 // present returns the signed distance along the path (metres) from s to the
@@ -66,7 +104,11 @@ func (mg *markGeom) laid(s float64) float64 {
 
 func newMarkGeom(m Mark, seed uint64) markGeom {
 	g := newGeom(m.Path)
-	mg := markGeom{m: m, g: g, hw: m.WidthM / 2, from: m.FromM, to: m.ToM, seed: seed}
+	mg := markGeom{m: m, g: g, hw: m.WidthM / 2, hw0: m.WidthM / 2, from: m.FromM, to: m.ToM, seed: seed}
+	mg.hw *= 1 + math.Abs(m.WidthVar)
+	for _, p := range m.Patches {
+		mg.hw = math.Max(mg.hw, p.WidthM/2)
+	}
 	if mg.to <= 0 || mg.to > g.total {
 		mg.to = g.total
 	}
@@ -90,6 +132,8 @@ type Renderer struct {
 	rayOK  []bool
 	px, py []float64 // per-frame floor points
 	kind   []uint8
+	prop   []uint8 // which Prop a kProp pixel shows
+	rows   []cartState
 	acc    []float32 // BGR accumulator in [0, 1]
 	buf    []byte    // BGR 8-bit frame
 	marks  []markGeom
@@ -104,6 +148,8 @@ type Renderer struct {
 	// specMin is the half-vector cosine below which a highlight is < 1e-3
 	specMin float64
 	shake   [6]float64
+	drift   [4][3]float64 // phases of the exposure and white-balance drift
+	winSin  [][2]float64  // sines of each window's elevation limits
 	next    int
 	last    truth.Frame
 	lastOK  bool
@@ -129,8 +175,8 @@ func (sc *Scenario) check() error {
 		return bad("focal lengths must be > 0")
 	case !(sc.Camera.HeightM > 0):
 		return bad("camera height must be > 0")
-	case sc.Camera.PitchDeg <= 0 || sc.Camera.PitchDeg >= 90:
-		return bad("pitch must be in (0, 90) degrees")
+	case sc.Camera.PitchDeg <= -30 || sc.Camera.PitchDeg >= 90:
+		return bad("pitch must be in (-30, 90) degrees")
 	case !(sc.Stripe.WidthM > 0):
 		return bad("stripe width must be > 0")
 	case sc.Stripe.Path.Length() <= 0:
@@ -141,6 +187,20 @@ func (sc *Scenario) check() error {
 		return bad(fmt.Sprintf("follow %q: want stripe or lane", sc.Follow))
 	case sc.Follow == FollowLane && !(sc.Lane.WidthM > 0 && sc.Lane.Left.WidthM > 0 && sc.Lane.Right.WidthM > 0):
 		return bad("lane and boundary widths must be > 0")
+	case sc.JPEGQuality < 0 || sc.JPEGQuality > 100:
+		return bad(fmt.Sprintf("JPEG quality %d not in 0..100", sc.JPEGQuality))
+	case sc.Light.RollingPose && !(sc.Light.LineTimeS > 0):
+		return bad("rolling pose needs a line time > 0")
+	case len(sc.Props) > 255:
+		return bad("more than 255 props")
+	}
+	for _, p := range sc.Props {
+		if !(p.WidthM > 0 && p.HeightM > 0) || (p.Shape != "person" && p.Shape != "post") {
+			return bad(fmt.Sprintf("prop %q: shape %q, %g × %g m", p.Name, p.Shape, p.WidthM, p.HeightM))
+		}
+	}
+	if sc.Stripe.DotPitchM > 0 && sc.Stripe.DotPitchM < sc.Stripe.WidthM {
+		return bad("dots closer than their diameter")
 	}
 	for _, s := range sc.Light.Shadows {
 		if len(s.Poly) < 3 {
@@ -172,6 +232,9 @@ func New(sc Scenario) (*Renderer, error) {
 		px: make([]float64, n), py: make([]float64, n), kind: make([]uint8, n),
 		acc: make([]float32, 3*n), buf: make([]byte, 3*n),
 	}
+	if len(sc.Props) > 0 {
+		r.prop = make([]uint8, n)
+	}
 	cam := &r.sc.Camera
 	for j := 0; j < h; j++ {
 		for i := 0; i < w; i++ {
@@ -199,6 +262,14 @@ func New(sc Scenario) (*Renderer, error) {
 	r.tex = newTexture(splitmix64(seed+1), 256, 0.006)
 	for i := range r.shake {
 		r.shake[i] = 2 * math.Pi * lattice(seed, 11, int64(i))
+	}
+	for _, wn := range sc.Backdrop.Windows {
+		r.winSin = append(r.winSin, [2]float64{math.Sin(rad(wn.El0Deg)), math.Sin(rad(wn.El1Deg))})
+	}
+	for c := range r.drift {
+		for k := range r.drift[c] {
+			r.drift[c][k] = 2 * math.Pi * lattice(seed, 12+int64(c), int64(k))
+		}
 	}
 	r.workers = runtime.GOMAXPROCS(0)
 	if r.workers > 4 {
@@ -288,6 +359,9 @@ type cartState struct {
 	x, y, psi float64 // cart point and heading (radians CCW)
 	yaw       float64 // camera's floor heading (radians CCW)
 	pose      camPose
+	// propBox[i] bounds Prop i in the image (min x, min y, max x, max y);
+	// set by rowStates, empty when there are no props.
+	propBox [][4]float64
 }
 
 // cartAt computes where the cart and camera are at time t (seconds).
@@ -326,7 +400,113 @@ func (r *Renderer) gainAt(t float64) float64 {
 			g = st.Gain
 		}
 	}
+	if d := r.sc.Light.DriftGain; d != 0 {
+		g *= 1 + d*r.driftAt(0, t)
+	}
 	return g
+}
+
+// driftAt is drift signal c (0 the gain, 1–3 red, green, blue) at time t,
+// in [−1, 1]: three slow sinusoids and a jitter that changes every frame.
+func (r *Renderer) driftAt(c int, t float64) float64 {
+	ph := &r.drift[c]
+	frame := int64(math.Floor(t*r.sc.FPS + 0.5))
+	j := 2*lattice(uint64(r.sc.Seed), 20+int64(c), frame) - 1
+	return 0.45*math.Sin(2*math.Pi*0.15*t+ph[0]) + 0.3*math.Sin(2*math.Pi*0.43*t+ph[1]) +
+		0.15*math.Sin(2*math.Pi*1.1*t+ph[2]) + 0.1*j
+}
+
+// whiteBalance is the per-channel (R, G, B) gain at time t.
+func (r *Renderer) whiteBalance(t float64) [3]float64 {
+	wb := [3]float64{1, 1, 1}
+	if d := r.sc.Light.DriftWB; d != 0 {
+		for c := range wb {
+			wb[c] = 1 + d*r.driftAt(1+c, t)
+		}
+	}
+	return wb
+}
+
+// rowStates returns the cart state each row is rendered with: one state
+// for all rows at time t, or with RollingPose one per row at its own
+// exposure time. The slice is the renderer's own.
+func (r *Renderer) rowStates(t float64) []cartState {
+	r.rows = r.rows[:0]
+	if !r.sc.Light.RollingPose {
+		r.rows = append(r.rows, r.cartAt(t))
+	} else {
+		for j := 0; j < r.h; j++ {
+			r.rows = append(r.rows, r.cartAt(r.rowTime(t, float64(j))))
+		}
+	}
+	if len(r.sc.Props) > 0 {
+		for k := range r.rows {
+			r.rows[k].propBox = r.propBoxes(&r.rows[k], r.rows[k].propBox)
+		}
+	}
+	return r.rows
+}
+
+// propBoxes bounds each prop in the image for the camera at st: its
+// outline sampled five times an edge through the lens model, with a
+// margin of 2 px for bowing between samples. A prop that cannot be
+// projected whole (partly behind the camera or outside the lens model)
+// gets the whole image.
+func (r *Renderer) propBoxes(st *cartState, out [][4]float64) [][4]float64 {
+	out = out[:0]
+	c := st.pose.c
+	for i := range r.sc.Props {
+		pr := &r.sc.Props[i]
+		px, py := pr.X+pr.VX*st.t, pr.Y+pr.VY*st.t
+		nx, ny := px-c.x, py-c.y
+		d := math.Sqrt(nx*nx + ny*ny)
+		box := [4]float64{math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)}
+		whole := d < 1e-6
+		for k := 0; k <= 16 && !whole; k++ {
+			// walk the rectangle's outline: bottom, right, top, left
+			var u, z float64
+			e, f := k/4, float64(k%4)/4
+			hw := pr.WidthM / 2
+			switch e {
+			case 0:
+				u, z = lerp(-hw, hw, f), 0
+			case 1:
+				u, z = hw, lerp(0, pr.HeightM, f)
+			case 2:
+				u, z = lerp(hw, -hw, f), pr.HeightM
+			default:
+				u, z = -hw, lerp(pr.HeightM, 0, f)
+			}
+			w := vec3{px - u*ny/d, py + u*nx/d, z}
+			x, y, ok := st.pose.project(&r.sc.Camera, w)
+			if !ok {
+				whole = true
+				break
+			}
+			box = [4]float64{fmin(box[0], x), fmin(box[1], y), fmax(box[2], x), fmax(box[3], y)}
+		}
+		if whole {
+			box = [4]float64{math.Inf(-1), math.Inf(-1), math.Inf(1), math.Inf(1)}
+		}
+		out = append(out, [4]float64{box[0] - 2, box[1] - 2, box[2] + 2, box[3] + 2})
+	}
+	return out
+}
+
+// rowTime is when image row y is exposed for a frame at time t.
+func (r *Renderer) rowTime(t, y float64) float64 {
+	if !r.sc.Light.RollingPose {
+		return t
+	}
+	return t + (y-float64(r.h)/2)*r.sc.Light.LineTimeS
+}
+
+// rowState picks row j's state from rowStates' result.
+func rowState(sts []cartState, j int) *cartState {
+	if len(sts) == 1 {
+		return &sts[0]
+	}
+	return &sts[j]
 }
 
 // render draws frame i into r.buf and returns its truth.
@@ -346,12 +526,42 @@ func (r *Renderer) render(i int) truth.Frame {
 		if n > 1 {
 			tk = t + r.sc.Light.ExposureS*(float64(k)/float64(n-1)-0.5)
 		}
-		st := r.cartAt(tk)
-		r.parallel(func(j0, j1 int) { r.castRows(&st, j0, j1) })
+		sts := r.rowStates(tk)
+		r.parallel(func(j0, j1 int) { r.castRows(sts, j0, j1) })
 		last := k == n-1
-		r.parallel(func(j0, j1 int) { r.shadeRows(&st, j0, j1, n, last, i) })
+		r.parallel(func(j0, j1 int) { r.shadeRows(sts, j0, j1, n, last, i) })
+	}
+	if q := r.sc.JPEGQuality; q > 0 {
+		r.jpeg(q)
 	}
 	return r.truthAt(i, r.cartAt(t))
+}
+
+// jpeg passes r.buf through OpenCV's JPEG encoder and decoder at quality
+// q. The frame is the renderer's own, so it cannot fail on the caller's
+// data; if OpenCV refuses, the frame is left as rendered and the error is
+// a programming mistake (sizes are checked by New), so it panics.
+func (r *Renderer) jpeg(q int) {
+	src, err := gocv.NewMatFromBytes(r.h, r.w, gocv.MatTypeCV8UC3, r.buf)
+	if err != nil {
+		panic(fmt.Sprintf("synth: jpeg: %v", err))
+	}
+	defer src.Close()
+	enc, err := gocv.IMEncodeWithParams(gocv.JPEGFileExt, src, []int{gocv.IMWriteJpegQuality, q})
+	if err != nil {
+		panic(fmt.Sprintf("synth: jpeg encode: %v", err))
+	}
+	defer enc.Close()
+	dec, err := gocv.IMDecode(enc.GetBytes(), gocv.IMReadColor)
+	if err != nil {
+		panic(fmt.Sprintf("synth: jpeg decode: %v", err))
+	}
+	defer dec.Close()
+	data, err := dec.DataPtrUint8()
+	if err != nil || dec.Rows() != r.h || dec.Cols() != r.w || len(data) != len(r.buf) {
+		panic(fmt.Sprintf("synth: jpeg decode gave %dx%d (%v)", dec.Cols(), dec.Rows(), err))
+	}
+	copy(r.buf, data)
 }
 
 // parallel runs f over bands of rows on up to r.workers goroutines. Every
@@ -372,11 +582,20 @@ func (r *Renderer) parallel(f func(j0, j1 int)) {
 	wg.Wait()
 }
 
-// castRows intersects each pixel's ray with the floor plane z = 0.
-func (r *Renderer) castRows(st *cartState, j0, j1 int) {
-	p := &st.pose
+// castRows intersects each pixel's ray with the floor plane z = 0 and
+// with the props.
+func (r *Renderer) castRows(sts []cartState, j0, j1 int) {
 	far := r.sc.Backdrop.FarM
+	var near []int
 	for j := j0; j < j1; j++ {
+		st := rowState(sts, j)
+		p := &st.pose
+		near = near[:0]
+		for pi, b := range st.propBox {
+			if float64(j) >= b[1] && float64(j) <= b[3] {
+				near = append(near, pi)
+			}
+		}
 		for i := 0; i < r.w; i++ {
 			k := j*r.w + i
 			if !r.rayOK[k] {
@@ -387,11 +606,21 @@ func (r *Renderer) castRows(st *cartState, j0, j1 int) {
 			dx := a*p.ex.x + b*p.ey.x + p.ez.x
 			dy := a*p.ex.y + b*p.ey.y + p.ez.y
 			dz := a*p.ex.z + b*p.ey.z + p.ez.z
-			if dz >= -1e-9 {
+			tt := math.Inf(1)
+			if dz < -1e-9 {
+				tt = -p.c.z / dz
+			}
+			if len(near) > 0 {
+				if pi, ok := r.propHit(st, near, float64(i), vec3{dx, dy, dz}, tt); ok {
+					r.kind[k] = kProp
+					r.prop[k] = uint8(pi)
+					continue
+				}
+			}
+			if math.IsInf(tt, 1) {
 				r.kind[k] = kBackdrop
 				continue
 			}
-			tt := -p.c.z / dz
 			fx, fy := tt*dx, tt*dy
 			if fx*fx+fy*fy > far*far {
 				r.kind[k] = kBackdrop
@@ -401,6 +630,76 @@ func (r *Renderer) castRows(st *cartState, j0, j1 int) {
 			r.px[k], r.py[k] = p.c.x+fx, p.c.y+fy
 		}
 	}
+}
+
+// propHit finds the nearest prop hit by the ray from the camera along d
+// (camera centre + τ·d) before τ = tMax: its index, or ok false. Only the
+// props listed in cands (nil: all) whose image box holds column x are
+// tried.
+func (r *Renderer) propHit(st *cartState, cands []int, x float64, d vec3, tMax float64) (int, bool) {
+	c := st.pose.c
+	best, bi := tMax, -1
+	n := len(cands)
+	if cands == nil {
+		n = len(r.sc.Props)
+	}
+	for ci := 0; ci < n; ci++ {
+		i := ci
+		if cands != nil {
+			i = cands[ci]
+			if b := &st.propBox[i]; x < b[0] || x > b[2] {
+				continue
+			}
+		}
+		pr := &r.sc.Props[i]
+		px, py := pr.X+pr.VX*st.t, pr.Y+pr.VY*st.t
+		nx, ny := px-c.x, py-c.y
+		dist := math.Sqrt(nx*nx + ny*ny)
+		if dist < 1e-6 {
+			continue
+		}
+		nx, ny = nx/dist, ny/dist
+		dn := d.x*nx + d.y*ny
+		if dn <= 1e-12 {
+			continue
+		}
+		tau := dist / dn // the plane through the prop facing the camera
+		if tau >= best {
+			continue
+		}
+		hx, hy, hz := c.x+tau*d.x, c.y+tau*d.y, c.z+tau*d.z
+		u := -(hx-px)*ny + (hy-py)*nx
+		if pr.inside(u, hz) {
+			best, bi = tau, i
+		}
+	}
+	return bi, bi >= 0
+}
+
+// inside reports whether the point u metres to the side of the prop's
+// axis and z metres above the floor is part of it.
+func (p *Prop) inside(u, z float64) bool {
+	if z < 0 || z > p.HeightM {
+		return false
+	}
+	au := fabs(u)
+	if p.Shape != "person" {
+		return au <= p.WidthM/2
+	}
+	// a standing person, proportions by eye for 1.75 m: head, body
+	// tapering from the shoulders to the hips, two legs
+	k := p.HeightM / 1.75
+	sw := p.WidthM / 2
+	zz := z / k
+	switch {
+	case hypot2(u/k, zz-1.62) < 0.11:
+		return true
+	case zz >= 0.85 && zz <= 1.50:
+		return au < sw*(0.8+0.2*(zz-0.85)/0.65)
+	case zz < 0.85:
+		return fabs(au-0.45*sw) < 0.3*sw
+	}
+	return false
 }
 
 // neighbour differences: the floor displacement for one pixel step in x
@@ -443,8 +742,9 @@ func rowCands(mg *markGeom, minX, minY, maxX, maxY float64, out []int) []int {
 
 // coverage is the share of the pixel at floor point (x, y) covered by the
 // mark, with an analytic one-pixel ramp across every edge so that the
-// rendered width equals the true width.
-func (mg *markGeom) coverage(cands []int, x, y, ux, uy, vx, vy, fp float64) float64 {
+// rendered width equals the true width, and the path position s of the
+// nearest centreline point (for the colour there).
+func (mg *markGeom) coverage(cands []int, x, y, ux, uy, vx, vy, fp float64) (c, s float64) {
 	best := math.Inf(1)
 	var bs, btx, bty, blat float64
 	for _, si := range cands {
@@ -454,22 +754,49 @@ func (mg *markGeom) coverage(cands []int, x, y, ux, uy, vx, vy, fp float64) floa
 		}
 	}
 	if best > 1e300 {
-		return 0
+		return 0, 0
 	}
 	nx, ny := -bty, btx
-	gl := hypot2(nx*ux+ny*uy, nx*vx+ny*vy) // metres across the line per pixel
-	c := clamp01(0.5 + (mg.hw-best)/gl)
-	if c == 0 {
-		return 0
+	if mg.m.DotPitchM > 0 {
+		c = mg.dot(bs, blat, btx, bty, ux, uy, vx, vy)
+	} else {
+		gl := hypot2(nx*ux+ny*uy, nx*vx+ny*vy) // metres across the line per pixel
+		c = clamp01(0.5 + (mg.hwAt(bs)-best)/gl)
+		if c == 0 {
+			return 0, bs
+		}
+		gs := hypot2(btx*ux+bty*uy, btx*vx+bty*vy) // metres along the line per pixel
+		c *= clamp01(0.5 + mg.present(bs)/gs)
 	}
-	gs := hypot2(btx*ux+bty*uy, btx*vx+bty*vy) // metres along the line per pixel
-	c *= clamp01(0.5 + mg.present(bs)/gs)
 	if mg.m.Wear > 0 && c > 0 {
 		sc := mg.m.WearScaleM
 		nz := 0.65*valueNoise(mg.seed, bs/sc, blat/sc) + 0.35*valueNoise(mg.seed+1, bs/sc*3, blat/sc*3)
 		c *= clamp01((nz-mg.m.Wear)*25 + 0.5)
 	}
-	return c
+	return c, bs
+}
+
+// dot is the coverage of a dotted mark's nearest dot for a pixel at path
+// position s, lateral offset lat (tangent (tx, ty)), with a one-pixel ramp
+// across the dot's rim measured along the radius. Dots lie where the line
+// is laid (gaps and ends apply to their centres).
+func (mg *markGeom) dot(s, lat, tx, ty, ux, uy, vx, vy float64) float64 {
+	p := mg.m.DotPitchM
+	r := mg.hw0
+	k := math.Round((s - mg.from - r) / p)
+	sc := mg.from + r + k*p
+	if mg.laid(sc) < 0 || sc > mg.to-r {
+		return 0
+	}
+	ds := s - sc
+	d := hypot2(ds, lat)
+	if d < 1e-9 {
+		return 1
+	}
+	// unit vector from the dot's centre to the pixel, on the floor
+	ex, ey := (ds*tx-lat*ty)/d, (ds*ty+lat*tx)/d
+	g := hypot2(ex*ux+ey*uy, ex*vx+ey*vy)
+	return clamp01(0.5 + (r-d)/g)
 }
 
 // shadowLight returns the light factor (1 = unshadowed) at floor point
@@ -528,17 +855,18 @@ func polySignedDist(poly [][2]float64, x, y float64) float64 {
 // shadeRows computes each pixel's colour. With n = 1 it goes straight to
 // r.buf; otherwise 1/n of it is added to r.acc, and the last of the n
 // instants writes the average to r.buf.
-func (r *Renderer) shadeRows(st *cartState, j0, j1 int, n int, last bool, frame int) {
+func (r *Renderer) shadeRows(sts []cartState, j0, j1 int, n int, last bool, frame int) {
 	weight := float32(1 / float64(n))
 	sd := r.sc.Light.NoiseSD
 	key := splitmix64(uint64(r.sc.Seed)^0x5bd1e995) + uint64(frame)*0x9e3779b97f4a7c15
 	sc := &r.sc
 	fl := &sc.Floor
 	li := &sc.Light
-	gain := r.gainAt(st.t)
 	cands := make([][]int, len(r.marks)+1)
 	for j := j0; j < j1; j++ {
-		rowGain := gain
+		st := rowState(sts, j)
+		wb := r.whiteBalance(st.t)
+		rowGain := r.gainAt(st.t)
 		if li.FlickerAmp > 0 {
 			rowGain *= 1 + li.FlickerAmp*math.Sin(2*math.Pi*li.FlickerHz*(st.t+float64(j)*li.LineTimeS))
 		}
@@ -564,6 +892,9 @@ func (r *Renderer) shadeRows(st *cartState, j0, j1 int, n int, last bool, frame 
 			case kBackdrop:
 				cr, cg, cb = r.backdrop(st, k)
 				cr, cg, cb = cr*rowGain, cg*rowGain, cb*rowGain
+			case kProp:
+				c := sc.Props[r.prop[k]].Colour
+				cr, cg, cb = c.R*rowGain, c.G*rowGain, c.B*rowGain
 			default:
 				x, y := r.px[k], r.py[k]
 				ux, uy, vx, vy := r.jacobian(i, j, k)
@@ -576,16 +907,17 @@ func (r *Renderer) shadeRows(st *cartState, j0, j1 int, n int, last bool, frame 
 				}
 				for mi := range r.marks {
 					mg := &r.marks[mi]
-					if c := mg.coverage(cands[mi], x, y, ux, uy, vx, vy, fp); c > 0 {
+					if c, s := mg.coverage(cands[mi], x, y, ux, uy, vx, vy, fp); c > 0 {
 						c *= mg.m.Opacity
-						cr, cg, cb = lerp(cr, mg.m.Colour.R, c), lerp(cg, mg.m.Colour.G, c), lerp(cb, mg.m.Colour.B, c)
+						mc := mg.colourAt(s)
+						cr, cg, cb = lerp(cr, mc.R, c), lerp(cg, mc.G, c), lerp(cb, mc.B, c)
 					}
 				}
-				if c := r.stripe.coverage(cands[len(r.marks)], x, y, ux, uy, vx, vy, fp); c > 0 && !r.haveLane {
-					m := &r.stripe.m
+				if c, s := r.stripe.coverage(cands[len(r.marks)], x, y, ux, uy, vx, vy, fp); c > 0 && !r.haveLane {
+					mc := r.stripe.colourAt(s)
 					ts := 1 + fl.Texture*0.3*r.tex.at(y*3, x*3, fp*3)
-					c *= m.Opacity
-					cr, cg, cb = lerp(cr, m.Colour.R*ts, c), lerp(cg, m.Colour.G*ts, c), lerp(cb, m.Colour.B*ts, c)
+					c *= r.stripe.m.Opacity
+					cr, cg, cb = lerp(cr, mc.R*ts, c), lerp(cg, mc.G*ts, c), lerp(cb, mc.B*ts, c)
 				}
 				l := 1.0
 				if len(li.Shadows) > 0 {
@@ -599,6 +931,7 @@ func (r *Renderer) shadeRows(st *cartState, j0, j1 int, n int, last bool, frame 
 				sp := spec * rowGain
 				cr, cg, cb = cr*f+sp, cg*f+sp, cb*f+sp
 			}
+			cr, cg, cb = cr*wb[0], cg*wb[1], cb*wb[2]
 			if n > 1 {
 				r.acc[3*k] += weight * float32(cb)
 				r.acc[3*k+1] += weight * float32(cg)
@@ -658,15 +991,34 @@ func (r *Renderer) backdrop(st *cartState, k int) (float64, float64, float64) {
 	dz := a*p.ex.z + b*p.ey.z + p.ez.z
 	az := math.Atan2(dy, dx)
 	el := dz / math.Sqrt(dx*dx+dy*dy+dz*dz)
+	for wi := range bd.Windows {
+		wn := &bd.Windows[wi]
+		if el < r.winSin[wi][0] || el > r.winSin[wi][1] {
+			continue
+		}
+		da := frac((deg(az)-wn.AzDeg)/360+0.5)*360 - 180
+		if fabs(da) > wn.WidthDeg/2 {
+			continue
+		}
+		if m := wn.MullionDeg; m > 0 {
+			if u := frac((da + wn.WidthDeg/2) / m); u < 0.1 {
+				return 0.12, 0.12, 0.13 // dark frame
+			}
+		}
+		return wn.Pane.R, wn.Pane.G, wn.Pane.B
+	}
 	c := bd.Wall
-	if u := math.Mod(az*12/math.Pi+100, 1); u < 0.12 {
+	if u := frac(az * 12 / math.Pi); u < 0.12 {
 		c = bd.Upright
 	}
-	if u := math.Mod(el*6+100, 1); u < 0.08 && el > 0 {
+	if u := frac(el * 6); u < 0.08 && el > 0 {
 		c = bd.Upright
 	}
 	return c.R, c.G, c.B
 }
+
+// frac is x − ⌊x⌋, in [0, 1) (math.Mod is slow in the per-pixel loop).
+func frac(x float64) float64 { return x - math.Floor(x) }
 
 // quant converts a channel value in [0, 1] to 8 bits, adding sensor noise
 // of sd levels drawn from key.

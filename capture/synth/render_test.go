@@ -55,7 +55,23 @@ func TestRenderedStripeMatchesTruth(t *testing.T) {
 	wide.Camera.HeightM, wide.Camera.PitchDeg = 0.9, 45
 	wide.Name = "test-wide"
 	wide.Frames = 2
-	for _, sc := range []Scenario{weave, curve, wide} {
+	// rows exposed at their own times while the cart weaves and shakes:
+	// the truth must follow the same per-row poses as the pixels
+	rolling := straightScene()
+	rolling.Name = "test-rolling"
+	rolling.Motion = Motion{SpeedMps: 2, StartM: 0.5, WeaveAmpM: 0.15, WeaveWavelengthM: 3, ShakeDeg: 2}
+	rolling.Light.LineTimeS = 1.0 / (30 * 500)
+	rolling.Light.RollingPose = true
+	rolling.Frames = 40
+	// width varying smoothly along the line: the truth width is the local
+	// width (not at a patch's sudden change of width, where a row crossing
+	// the line at an angle sees one edge of each width)
+	uneven := straightScene()
+	uneven.Name = "test-uneven"
+	uneven.Stripe.WidthVar = 0.3
+	uneven.Motion = Motion{SpeedMps: 1, StartM: 0.5, WeaveAmpM: 0.1, WeaveWavelengthM: 3}
+	uneven.Frames = 40
+	for _, sc := range []Scenario{weave, curve, wide, rolling, uneven} {
 		t.Run(sc.Name, func(t *testing.T) {
 			r, err := New(sc)
 			if err != nil {
@@ -253,10 +269,20 @@ func TestLookup(t *testing.T) {
 	if _, err := Lookup("no-such-scene"); !errors.Is(err, capture.ErrNotFound) {
 		t.Errorf("unknown name: %v, want ErrNotFound", err)
 	}
-	bad := straightScene()
-	bad.Camera.PitchDeg = 0
-	if _, err := New(bad); !errors.Is(err, ErrScenario) {
-		t.Errorf("pitch 0: %v, want ErrScenario", err)
+	for name, mod := range map[string]func(sc *Scenario){
+		"pitch 90":         func(sc *Scenario) { sc.Camera.PitchDeg = 90 },
+		"pitch -30":        func(sc *Scenario) { sc.Camera.PitchDeg = -30 },
+		"jpeg quality 101": func(sc *Scenario) { sc.JPEGQuality = 101 },
+		"rolling, no line": func(sc *Scenario) { sc.Light.RollingPose = true },
+		"prop shape":       func(sc *Scenario) { sc.Props = []Prop{{Shape: "tree", WidthM: 1, HeightM: 1}} },
+		"prop size":        func(sc *Scenario) { sc.Props = []Prop{{Shape: "post", HeightM: 1}} },
+		"dots overlap":     func(sc *Scenario) { sc.Stripe.DotPitchM = 0.01 },
+	} {
+		bad := straightScene()
+		mod(&bad)
+		if _, err := New(bad); !errors.Is(err, ErrScenario) {
+			t.Errorf("%s: %v, want ErrScenario", name, err)
+		}
 	}
 }
 
@@ -306,6 +332,21 @@ func TestResized(t *testing.T) {
 	if math.Abs(a.OffsetPx/2-b.OffsetPx) > 0.5 || math.Abs(a.WidthPx/2-b.WidthPx) > 0.5 ||
 		math.Abs(a.HeadingDeg-b.HeadingDeg) > 0.5 || a.OffsetM != b.OffsetM {
 		t.Errorf("full %+v\nhalf %+v", a, b)
+	}
+}
+
+// TestResizedWide: 16:9 from 4:3 keeps square pixels and the horizontal
+// field of view (the sensor is cropped top and bottom), and a rolling
+// shutter still reads the frame out in the same time.
+func TestResizedWide(t *testing.T) {
+	sc, _ := Lookup("rolling-shutter")
+	w := sc.Resized(1280, 720)
+	c := w.Camera
+	if c.Fx != 1000 || c.Fy != 1000 || c.Cx != 640 || c.Cy != 360 {
+		t.Errorf("1280x720 intrinsics %+v", c)
+	}
+	if a, b := sc.Light.LineTimeS*480, w.Light.LineTimeS*720; math.Abs(a-b) > 1e-12 {
+		t.Errorf("readout %.6f s at 480 rows, %.6f s at 720", a, b)
 	}
 }
 

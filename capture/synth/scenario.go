@@ -41,6 +41,27 @@ type Mark struct {
 	// Wear in [0, 1) removes that share of the mark in irregular chunks of
 	// about WearScaleM.
 	Wear, WearScaleM float64
+	// DotPitchM > 0 paints the mark as round dots of diameter WidthM,
+	// centred on the path every DotPitchM (from FromM + WidthM/2).
+	DotPitchM float64
+	// WidthVar makes the width vary smoothly along the path by up to that
+	// share of WidthM either way (hand-painted lines), over stretches of
+	// about 0.6 m; the centreline stays on the path.
+	WidthVar float64
+	// FadeVar darkens or bleaches the colour smoothly along the path by
+	// up to that share (sun-faded, dirty or freshly painted stretches).
+	FadeVar float64
+	// Patches are stretches repainted or re-taped in another colour and
+	// width, centred on the same path.
+	Patches []Patch
+}
+
+// Patch is a stretch [FromM, ToM) of a mark laid again with another
+// colour and width (WidthM 0 keeps the mark's width).
+type Patch struct {
+	FromM, ToM float64
+	WidthM     float64
+	Colour     RGB
 }
 
 // Motion is how the cart moves along the stripe's path: at SpeedMps from
@@ -109,16 +130,57 @@ type Light struct {
 	// averages them (motion blur).
 	BlurSamples int
 	ExposureS   float64
+	// RollingPose renders each row with the cart and camera where they are
+	// when that row is exposed: row j at the frame time + (j − H/2)·
+	// LineTimeS (rolling-shutter skew and wobble). Truth uses the same
+	// per-row poses. Flicker bands use LineTimeS with or without it.
+	RollingPose bool
+	// DriftGain and DriftWB make the exposure and the white balance wander
+	// from frame to frame, as a camera's automatic exposure and white
+	// balance hunt: the gain is multiplied by 1 + DriftGain·d(t) and each
+	// colour channel by 1 + DriftWB·d_c(t), where d are slow sums of
+	// sinusoids (0.15 to 1.1 Hz, random phases) plus a small frame-to-frame
+	// jitter, each within [−1, 1]. Not a model of any camera's controller.
+	DriftGain, DriftWB float64
 }
 
 // GainStep sets Light.Gain from time AtS on.
 type GainStep struct{ AtS, Gain float64 }
 
 // Backdrop is what rays above the horizon (or beyond FarM on the floor)
-// see: a wall with rack uprights.
+// see: a distant wall with rack uprights and windows, by direction only
+// (at infinity: no parallax).
 type Backdrop struct {
 	Wall, Upright RGB
 	FarM          float64
+	// Windows are bright panes in the wall.
+	Windows []Window
+}
+
+// Window is a rectangle of the backdrop between world azimuths AzDeg ±
+// WidthDeg/2 (counter-clockwise from +X) and elevations El0Deg to El1Deg
+// above the horizontal, of colour Pane (values above 1 saturate: daylight),
+// divided by dark mullions every MullionDeg of azimuth (0 = none).
+type Window struct {
+	AzDeg, WidthDeg float64
+	El0Deg, El1Deg  float64
+	Pane            RGB
+	MullionDeg      float64
+}
+
+// Prop is an upright object standing on the floor at (X, Y) and moving at
+// (VX, VY) m/s: drawn as a flat cut-out facing the camera (a billboard), so
+// it hides the floor and the backdrop behind it and, in the truth, the
+// stripe it stands in front of. Its edges are not anti-aliased.
+type Prop struct {
+	Name string
+	// Shape is "person" (head, body and legs; WidthM is the shoulder
+	// width) or "post" (a rectangle: a rack upright, a column).
+	Shape           string
+	X, Y            float64
+	WidthM, HeightM float64
+	Colour          RGB
+	VX, VY          float64
 }
 
 // Scenario is a complete synthetic clip: scene, camera, motion and length.
@@ -133,7 +195,9 @@ type Scenario struct {
 	// Stripe is the line to follow; the cart drives along Stripe.Path.
 	Stripe Mark
 	// Marks are other marks on the floor (drawn before the stripe).
-	Marks    []Mark
+	Marks []Mark
+	// Props stand on the floor (people, rack uprights).
+	Props    []Prop
 	Motion   Motion
 	Floor    Floor
 	Light    Light
@@ -148,10 +212,19 @@ type Scenario struct {
 	// truth header, so that replays and scores pick the mode up.
 	Follow string
 	Lane   Lane
+	// JPEGQuality in 1..100 passes every frame through OpenCV's JPEG
+	// encoder and decoder at that quality (blocking of a cheap camera's
+	// low-bitrate stream); 0 leaves frames as rendered.
+	JPEGQuality int
 }
 
-// Resized returns sc for a w×h image: the intrinsics scale with the image
-// so the camera sees the same scene.
+// Resized returns sc for a w×h image, as the same camera with a sensor of
+// another resolution would see it: the horizontal field of view is kept,
+// both focal lengths scale with the width (so pixels keep their aspect)
+// and the principal point keeps its place relative to the frame. At the
+// same aspect ratio the camera sees the same scene; at another (16:9 from
+// 4:3) the top and bottom are cropped or extended, as on a real sensor.
+// A rolling shutter reads all rows out in the same time.
 func (sc Scenario) Resized(w, h int) Scenario {
 	if sc.Width <= 0 || sc.Height <= 0 {
 		return sc
@@ -159,8 +232,10 @@ func (sc Scenario) Resized(w, h int) Scenario {
 	kx, ky := float64(w)/float64(sc.Width), float64(h)/float64(sc.Height)
 	sc.Camera.Fx *= kx
 	sc.Camera.Cx *= kx
-	sc.Camera.Fy *= ky
+	sc.Camera.Fy *= kx
 	sc.Camera.Cy *= ky
+	// the rows are read out in the same time
+	sc.Light.LineTimeS /= ky
 	sc.Width, sc.Height = w, h
 	return sc
 }

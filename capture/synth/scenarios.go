@@ -8,8 +8,7 @@ import "math"
 func init() {
 	for _, f := range []func() Scenario{
 		weave, gap, curves, rackShadows, walker, glare, worn, floorMarks, tiles,
-		dim, flicker, exposureJumps, shake, fisheye, narrow, lowCamera,
-		branch, dashed, wideTape,
+		dim, flicker, exposureJumps, shake, fisheye, narrow, branch, wideTape,
 		tape("tape-white", White, concrete(), "white 50 mm tape on concrete"),
 		tape("tape-blue", Blue, concrete(), "blue 50 mm tape on concrete"),
 		tape("tape-green", Green, concrete(), "green 50 mm tape on concrete"),
@@ -304,17 +303,6 @@ func narrow() Scenario {
 	return sc
 }
 
-func lowCamera() Scenario {
-	sc := weave()
-	sc.Name = "low-camera"
-	sc.Notes = "a very low camera (15 cm, pitched 8°) looking along the floor at a grazing angle, with the wall and racks above the horizon"
-	sc.Camera.HeightM = 0.15
-	sc.Camera.PitchDeg = 8
-	sc.Stripe.Path.Segments = append(sc.Stripe.Path.Segments, Straight(30))
-	sc.Tags = []string{"grazing", "horizon"}
-	return sc
-}
-
 func branch() Scenario {
 	sc := weave()
 	sc.Name = "branch"
@@ -328,15 +316,6 @@ func branch() Scenario {
 		Path:   Path{Start: Pose{X: x + 0.4*math.Sin(psi), Y: y - 0.4*math.Cos(psi), HeadingDeg: deg(psi) + 90}, Segments: []Segment{Straight(0.8)}},
 		WidthM: 0.05, Colour: Yellow})
 	sc.Tags = []string{"branch", "crossing"}
-	return sc
-}
-
-func dashed() Scenario {
-	sc := weave()
-	sc.Name = "dashed"
-	sc.Notes = "a dashed line: 300 mm dashes with 200 mm gaps (truth treats it as one continuous line)"
-	sc.Stripe.DashM, sc.Stripe.DashGapM = 0.3, 0.2
-	sc.Tags = []string{"dashed"}
 	return sc
 }
 

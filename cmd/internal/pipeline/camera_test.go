@@ -11,7 +11,9 @@ import (
 
 	"gocv.io/x/gocv"
 
+	"github.com/hewline/hewline/capture"
 	"github.com/hewline/hewline/capture/capturetest"
+	"github.com/hewline/hewline/capture/record"
 	"github.com/hewline/hewline/capture/v4l2"
 	"github.com/hewline/hewline/cmd/internal/pipeline"
 	"github.com/hewline/hewline/guidance"
@@ -110,11 +112,12 @@ const (
 // camera playing steps at 30 fps; it must be called inside a bubble.
 func runCamera(t *testing.T, span time.Duration, det pipeline.Detector, steps ...capturetest.Step) cameraRun {
 	t.Helper()
-	return runCameraWith(t, span, det, nil, steps...)
+	return runCameraWith(t, span, det, nil, nil, steps...)
 }
 
-// runCameraWith is runCamera with setup called on the fake before it starts.
-func runCameraWith(t *testing.T, span time.Duration, det pipeline.Detector, setup func(*capturetest.FakeCamera), steps ...capturetest.Step) cameraRun {
+// runCameraWith is runCamera with setup called on the fake before it
+// starts and more sinks after the test's own.
+func runCameraWith(t *testing.T, span time.Duration, det pipeline.Detector, setup func(*capturetest.FakeCamera), sinks []pipeline.Sink, steps ...capturetest.Step) cameraRun {
 	t.Helper()
 	fake := capturetest.NewFakeCamera(steps...)
 	fake.Clock = capturetest.Sleeper{}
@@ -137,7 +140,7 @@ func runCameraWith(t *testing.T, span time.Duration, det pipeline.Detector, setu
 	defer cancel()
 	run := cameraRun{events: ev, start: time.Now(), tcfg: tcfg}
 	run.st, run.err = pipeline.Run(ctx, sup, pipeline.Config{
-		Detector: det, Tracker: tr, Sinks: []pipeline.Sink{sink},
+		Detector: det, Tracker: tr, Sinks: append([]pipeline.Sink{sink}, sinks...),
 		Live: true, Watchdog: watchdog,
 		Transient: func(err error) bool { return errors.Is(err, v4l2.ErrStalled) || errors.Is(err, v4l2.ErrGone) },
 	})
@@ -245,7 +248,7 @@ func runCameraHold(t *testing.T, span, hold time.Duration) cameraRun {
 			time.Sleep(hold)
 			f.Release()
 		}()
-	}, capturetest.Frames(45, capturetest.MJPEG320), capturetest.Hold(), capturetest.Frames(60, capturetest.MJPEG320))
+	}, nil, capturetest.Frames(45, capturetest.MJPEG320), capturetest.Hold(), capturetest.Frames(60, capturetest.MJPEG320))
 }
 
 // TestCameraVanishReopensWithBackoff: the camera is unplugged and the
@@ -351,4 +354,84 @@ func TestCameraLatencyAndDrops(t *testing.T) {
 			})
 		})
 	}
+}
+
+// TestCameraRecordingReplaysDecisions: a live run over the fake camera,
+// with a detector slower than the camera (so frames are dropped) and a 1 s
+// stall, records what guidance saw (pipeline.RecordSink). Replaying the
+// recording with the sidecar's times, as hewline replay does, gives every
+// recorded frame the same decision as the live run: state, trust, alarm
+// and offset. Recorded frames are matched to live ones through the
+// sidecar's src field, so frames the recorder itself dropped cannot shift
+// the comparison.
+func TestCameraRecordingReplaysDecisions(t *testing.T) {
+	synctest.Test(t, func(t *testing.T) {
+		dir := t.TempDir()
+		r, err := record.New(record.Options{Dir: dir, FPS: 30})
+		if err != nil {
+			t.Fatal(err)
+		}
+		bg := record.NewBackground(r, 8)
+		det := patternDetector{work: 50 * time.Millisecond}
+		run := runCameraWith(t, 6*time.Second, det, nil, []pipeline.Sink{&pipeline.RecordSink{B: bg}},
+			capturetest.Frames(60, capturetest.MJPEG320),
+			capturetest.Stall(time.Second),
+			capturetest.Frames(60, capturetest.MJPEG320))
+		if err := bg.Close(); err != nil {
+			t.Fatal(err)
+		}
+		if run.st.Drops == 0 {
+			t.Fatal("the live run dropped no frame: the test would not cover drops")
+		}
+		var live []pipeline.Result
+		for _, a := range run.got {
+			if !a.r.Tick {
+				live = append(live, a.r)
+			}
+		}
+		files := bg.Recorder().Files()
+		if len(files) != 1 {
+			t.Fatalf("recorded %v, want one clip", files)
+		}
+		_, side, err := record.ReadSidecarFull(record.SidecarPath(files[0]))
+		if err != nil {
+			t.Fatal(err)
+		}
+		ts, err := record.ReadSidecar(record.SidecarPath(files[0]))
+		if err != nil {
+			t.Fatal(err)
+		}
+		src, err := capture.Open(files[0])
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer src.Close()
+		src.(*capture.VideoFile).UseTimestamps(ts)
+		tr, err := guidance.NewTracker(run.tcfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		replay := &clockSink{}
+		if _, err := pipeline.Run(context.Background(), src, pipeline.Config{Detector: patternDetector{}, Tracker: tr, Sinks: []pipeline.Sink{replay}}); err != nil {
+			t.Fatal(err)
+		}
+		if len(replay.got) != len(side) || len(side) != int(bg.Recorded()) || len(side)+int(bg.Drops()) != len(live) {
+			t.Fatalf("live %d frames, recorded %d (+%d dropped by the recorder), sidecar %d, replayed %d",
+				len(live), bg.Recorded(), bg.Drops(), len(side), len(replay.got))
+		}
+		states := map[guidance.State]bool{}
+		for i, b := range replay.got {
+			a := live[side[i].Src]
+			states[a.Est.State] = true
+			if a.Est.State != b.r.Est.State || a.Est.Tracking != b.r.Est.Tracking || a.Est.Alarm != b.r.Est.Alarm ||
+				a.Est.OffsetPx != b.r.Est.OffsetPx || a.Cue != b.r.Cue {
+				t.Errorf("recorded frame %d (live %d): live %s tracking=%v alarm=%v offset %.3f, replay %s tracking=%v alarm=%v offset %.3f",
+					i, side[i].Src, a.Est.State, a.Est.Tracking, a.Est.Alarm, a.Est.OffsetPx, b.r.Est.State, b.r.Est.Tracking, b.r.Est.Alarm, b.r.Est.OffsetPx)
+			}
+		}
+		if !states[guidance.Holding] || !states[guidance.Regaining] {
+			t.Errorf("states seen %v: want holding and, after the stall, regaining", states)
+		}
+		t.Logf("%d live frames (%d dropped before detection), %d recorded, all decided alike", len(live), run.st.Drops, len(side))
+	})
 }

@@ -20,9 +20,17 @@ type Config struct {
 	// RefRow is the frame row where OffsetPx and HeadingDeg are
 	// measured; 0 means the lowest anchor row.
 	RefRow float64
-	// MinRows is the fewest anchor rows with a stripe for a detection
-	// [3].
+	// RefRowFrac, when > 0, puts RefRow at this fraction of the frame's
+	// height (the classical detector's convention, vision.Config.RefRow),
+	// so that both detectors measure offset and heading at the same row.
+	// It overrides RefRow.
+	RefRowFrac float64
+	// MinRows is the fewest anchor rows that must see the stripe
+	// confidently and lie on one curve for a detection [3].
 	MinRows int
+	// MinRowConf is the lowest per-row confidence (Row.Conf) for a row
+	// to count as seeing the stripe [0.5].
+	MinRowConf float64
 }
 
 // Row is one anchor row's reading.
@@ -38,6 +46,9 @@ type Row struct {
 	// Conf is the probability mass of those three cells when Present,
 	// and the probability of "absent" otherwise.
 	Conf float64
+	// Fitted is true when the row was confident enough and lay on the
+	// fitted curve (see Detector.Detect).
+	Fitted bool
 }
 
 // Detector finds the stripe with the row-anchor network through OpenCV's
@@ -50,6 +61,9 @@ type Detector struct {
 	in   []float32
 	out  []float32
 	rows []Row
+	// Per-frame fit buffers, reused.
+	xs, ys, ws []float64
+	idx        []int
 }
 
 // NewDetector validates and loads modelBytes (see Load). It does not
@@ -57,6 +71,12 @@ type Detector struct {
 func NewDetector(modelBytes []byte, cfg Config) (*Detector, error) {
 	if cfg.MinRows <= 0 {
 		cfg.MinRows = 3
+	}
+	if cfg.MinRowConf <= 0 {
+		cfg.MinRowConf = 0.5
+	}
+	if cfg.MinRowConf >= 1 || cfg.RefRowFrac < 0 || cfg.RefRowFrac >= 1 {
+		return nil, fmt.Errorf("cnn: MinRowConf %v and RefRowFrac %v must be in [0, 1)", cfg.MinRowConf, cfg.RefRowFrac)
 	}
 	net, err := Load(modelBytes)
 	if err != nil {
@@ -68,7 +88,8 @@ func NewDetector(modelBytes []byte, cfg Config) (*Detector, error) {
 		return nil, fmt.Errorf("cnn: MinRows %d but the model has %d rows", cfg.MinRows, a.Rows)
 	}
 	return &Detector{cfg: cfg, net: net, pre: NewPreprocessor(a),
-		in: make([]float32, a.InW*a.InH), out: make([]float32, a.Outputs()), rows: make([]Row, a.Rows)}, nil
+		in: make([]float32, a.InW*a.InH), out: make([]float32, a.Outputs()), rows: make([]Row, a.Rows),
+		xs: make([]float64, 0, a.Rows), ys: make([]float64, 0, a.Rows), ws: make([]float64, 0, a.Rows), idx: make([]int, 0, a.Rows)}, nil
 }
 
 // Arch returns the loaded model's architecture.
@@ -83,14 +104,23 @@ func (d *Detector) Notes() map[string]string { return d.net.Model().Notes }
 func (d *Detector) Rows() []Row { return d.rows }
 
 // Detect measures the stripe in img (8-bit BGR). hint is not used: the
-// network always searches the whole region. WidthPx is always 0: the
-// network does not measure the stripe's width.
+// network always searches the whole region (the caller, pipeline.Fused,
+// checks the result against the tracker's prediction). WidthPx is always
+// 0: the network does not measure the stripe's width.
 //
-// Confidence is the mean, over the rows where the stripe was found, of
-// each row's probability mass near its peak, times min(1, found rows /
-// half the rows) (a stripe seen on few rows is less trusted), times
+// A row counts when its most probable class is a cell with a confidence
+// (Row.Conf) of at least MinRowConf. The rows are fitted robustly: after
+// each weighted least-squares fit the row farthest from the curve is
+// dropped while it lies more than one cell away, and the frame is refused
+// when fewer than MinRows rows remain on the curve, or when they do not
+// lie on both sides of the reference row (the offset would be an
+// extrapolation, or read off the last rows of a line that ends there).
+//
+// Confidence is the mean, over the fitted rows, of each row's
+// probability mass near its peak, times min(1, fitted rows / half the
+// rows) (a stripe seen on few rows is less trusted), times
 // 1/(1 + (rms/cell)²) where rms is the scatter of the rows about the
-// fitted curve and cell the width of one column cell.
+// curve and cell the width of one column cell.
 func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	_ = hint
 	det := vision.Detection{Method: Method}
@@ -109,8 +139,7 @@ func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	}
 	cellW := float64(roi.Dx()) / float64(a.Cells)
 	k := a.Classes()
-	var xs, ys, ws []float64
-	var confSum float64
+	xs, ys, ws, idx := d.xs[:0], d.ys[:0], d.ws[:0], d.idx[:0]
 	for r := 0; r < a.Rows; r++ {
 		p := d.out[r*k : (r+1)*k]
 		row := Row{Y: anchorY(a, roi, r)}
@@ -125,48 +154,91 @@ func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 			}
 			row.Present, row.Conf = true, s
 			row.X = float64(roi.Min.X) + m/s*cellW
-			xs, ys, ws = append(xs, row.X), append(ys, row.Y), append(ws, s)
-			confSum += s
+			if s >= d.cfg.MinRowConf {
+				xs, ys, ws, idx = append(xs, row.X), append(ys, row.Y), append(ws, s), append(idx, r)
+			}
 		}
 		d.rows[r] = row
 	}
-	n := len(xs)
-	if n < d.cfg.MinRows {
-		det.Reason = fmt.Sprintf("stripe on %d of %d rows", n, a.Rows)
+	if len(xs) < d.cfg.MinRows {
+		det.Reason = fmt.Sprintf("stripe seen confidently on %d of %d rows", len(xs), a.Rows)
 		return det
 	}
 	ref := d.cfg.RefRow
-	if ref == 0 {
+	switch {
+	case d.cfg.RefRowFrac > 0:
+		ref = d.cfg.RefRowFrac * float64(img.Rows())
+	case ref == 0:
 		ref = anchorY(a, roi, a.Rows-1)
 	}
-	deg := 1
-	if n >= 5 {
-		deg = 2
+	// Robust fit: fit the rows, drop the one farthest from the curve
+	// while it is more than one cell away, fit again. A stripe is a
+	// smooth curve; rows that do not lie on one are not a stripe.
+	var c [3]float64
+	for {
+		deg := 1
+		if len(xs) >= 5 {
+			deg = 2
+		}
+		var ok bool
+		if c, ok = fitPoly(ys, xs, ws, ref, deg); !ok {
+			det.Reason = "rows do not fit a curve"
+			return det
+		}
+		worst, we := -1, 0.0
+		for i := range xs {
+			t := ys[i] - ref
+			if e := math.Abs(xs[i] - (c[0] + c[1]*t + c[2]*t*t)); e > we {
+				worst, we = i, e
+			}
+		}
+		if we <= cellW {
+			break
+		}
+		if len(xs) <= d.cfg.MinRows {
+			det.Reason = fmt.Sprintf("rows do not lie on one curve (a row %.0f px off it)", we)
+			return det
+		}
+		xs = append(xs[:worst], xs[worst+1:]...)
+		ys = append(ys[:worst], ys[worst+1:]...)
+		ws = append(ws[:worst], ws[worst+1:]...)
+		idx = append(idx[:worst], idx[worst+1:]...)
 	}
-	c, ok := fitPoly(ys, xs, ws, ref, deg)
-	if !ok {
-		det.Reason = "rows do not fit a curve"
+	for _, r := range idx {
+		d.rows[r].Fitted = true
+	}
+	n := len(xs)
+	// The offset is read at the reference row: the stripe must cross it,
+	// seen on fitted rows above and below it, so that the offset is
+	// neither extrapolated from far rows nor read off the last rows of a
+	// line that is ending.
+	if ys[0] > ref || ys[n-1] < ref {
+		det.Reason = fmt.Sprintf("stripe seen on rows %.0f–%.0f, not across the reference row %.0f", ys[0], ys[n-1], ref)
 		return det
 	}
-	var rss, wsum float64
+	var rss, wsum, confSum float64
 	for i := range xs {
 		t := ys[i] - ref
 		e := xs[i] - (c[0] + c[1]*t + c[2]*t*t)
 		rss += ws[i] * e * e
 		wsum += ws[i]
+		confSum += ws[i]
 	}
 	rms := math.Sqrt(rss / wsum)
 	cover := math.Min(1, float64(n)/(float64(a.Rows)/2))
 	fit := 1 / (1 + (rms/cellW)*(rms/cellW))
 	det.Found = true
 	det.Confidence = confSum / float64(n) * cover * fit
-	if fit < 0.5 {
-		det.Reason = "rows scatter about the fit"
-	}
 	det.RefRow = ref
 	det.OffsetPx = c[0] - float64(img.Cols())/2
 	det.HeadingDeg = math.Atan(-c[1]) * 180 / math.Pi
+	// The points run from the top fitted row to the bottom one, and on to
+	// the region's bottom edge (half a band) when the lowest anchor row
+	// is among them.
 	yTop, yBot := ys[0], ys[n-1]
+	if idx[n-1] == a.Rows-1 {
+		yBot = float64(roi.Max.Y - 1)
+	}
 	np := max(8, n)
 	det.Points = make([]vision.Point, np)
 	for i := range det.Points {

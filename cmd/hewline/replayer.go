@@ -64,7 +64,14 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 	if err != nil {
 		return nil, nil, err
 	}
-	f := &pipeline.Fused{Primary: cl, CrossCheck: o.cnnCheck}
+	// The fallback's confidence is capped halfway between the tracker's
+	// hold and acquisition thresholds, always below the latter: it can
+	// carry a locked track, never start or regain one (see pipeline.Fused).
+	capConf := (o.tracker.HoldConfidence + o.tracker.MinConfidence) / 2
+	if capConf >= o.tracker.MinConfidence {
+		capConf = o.tracker.MinConfidence * 0.98
+	}
+	f := &pipeline.Fused{Primary: cl, CrossCheck: o.cnnCheck, MaxFallbackConf: capConf}
 	closeAll := func() { cl.Close() }
 	if !o.cnn {
 		return f, closeAll, nil
@@ -78,7 +85,7 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 		}
 		model = b
 	}
-	nn, err := cnn.NewDetector(model, cnn.Config{})
+	nn, err := cnn.NewDetector(model, cnn.Config{RefRowFrac: o.vision.RefRow})
 	if err != nil {
 		cl.Close()
 		return nil, nil, fmt.Errorf("cnn model %s: %w", o.cnnModel, err)
@@ -261,7 +268,7 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 	if ss != nil {
 		extra["stream_refused"] = float64(ss.Refused)
 	}
-	extra["cnn_runs"], extra["cnn_used"], extra["cnn_disagreements"] = float64(det.FallbackRuns), float64(det.FallbackUsed), float64(det.Disagreements)
+	extra["cnn_runs"], extra["cnn_used"], extra["cnn_disagreements"], extra["cnn_gated"] = float64(det.FallbackRuns), float64(det.FallbackUsed), float64(det.Disagreements), float64(det.FallbackGated)
 	if err := lw.Close(end, extra); err != nil && runErr == nil {
 		runErr = err
 	}

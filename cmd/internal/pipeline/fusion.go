@@ -9,19 +9,56 @@ import (
 	"github.com/hewline/hewline/vision"
 )
 
+// Methods a fused measurement can carry in Detection.Method (and so in
+// the track log's method), besides the detectors' own names ("classical",
+// "cnn").
+const (
+	// MethodFused: both detectors found the stripe and agree; the
+	// position is the primary's, which is the more precise.
+	MethodFused = "fused"
+	// MethodDisputed prefixes the detector whose position was kept when
+	// the two disagree ("disputed:classical", "disputed:cnn"); the
+	// confidence is halved.
+	MethodDisputed = "disputed:"
+)
+
 // Fused runs the classical detector on every frame and a fallback (the
 // CNN) when the classical one is unsure, plus, optionally, every
 // CrossCheck-th frame as a cross-check.
 //
-// The rule:
-//   - classical confidence ≥ Threshold: the classical measurement is used;
-//   - below it, the fallback runs; if it found the stripe with a higher
-//     confidence, its measurement is used (Method "cnn");
-//   - whenever both found the stripe and their offsets at the reference
-//     row differ by more than AgreePx (scaled with the frame width from
-//     640 px), the measurement used keeps its position but its confidence
-//     is halved and Reason says so: two detectors that disagree are not to
-//     be trusted.
+// The fallback is a second opinion, never a source of a track of its own.
+// The rule, in order:
+//   - classical confidence ≥ Threshold and no cross-check due: the
+//     classical measurement, untouched (Method "classical");
+//   - otherwise the fallback runs. A fallback measurement counts only when
+//     the tracker predicts the line (hint.Valid: there is a track) and the
+//     fallback's offset and heading lie within GateSigmas of that
+//     prediction (at least AgreePx in offset). Without a track, or far
+//     from its prediction, the fallback's answer is dropped and the
+//     classical one returned as it is; Reason says why.
+//   - both found the stripe and their offsets at the classical reference
+//     row agree within AgreePx (scaled with the frame width from 640 px):
+//     "fused", the classical position with the better of the two
+//     confidences (the fallback's capped, see below);
+//   - they disagree: "disputed:classical" or "disputed:cnn", whichever
+//     is nearer the prediction (the fallback only if it passed the gate),
+//     with its confidence halved: two detectors that disagree are not to
+//     be trusted;
+//   - classical found nothing and the fallback's measurement passed the
+//     gate: the fallback's measurement (Method "cnn"). The fallback bridges
+//     one unbroken stretch only: the first frame in which classical finds
+//     nothing and the fallback has no measurement that passes the gate
+//     ends the bridge, and the fallback is not used alone again until the
+//     classical detector is confident (≥ Threshold) once more. A bridge
+//     that has started to fail is not trusted to recover by itself, and
+//     no bridge lasts longer than MaxBridge frames.
+//
+// Any confidence that rests on the fallback is capped at MaxFallbackConf.
+// Set it below the tracker's MinConfidence (the acquisition threshold) and
+// above its HoldConfidence: then the fallback can carry a locked track
+// through a hard stretch, but it can never start one or regain one after
+// a loss: that takes the classical detector. The tracker's fail-safe
+// timer still runs on trusted measurements only.
 type Fused struct {
 	Primary, Fallback Detector
 	// Threshold is the classical confidence below which the fallback
@@ -32,10 +69,44 @@ type Fused struct {
 	// AgreePx is the largest offset difference at 640 px width that still
 	// counts as agreement (default 10, the scoring tolerance).
 	AgreePx float64
+	// GateSigmas is how many of the prediction's standard deviations
+	// (hint.OffsetSigma, hint.HeadingSigma) a fallback measurement may
+	// lie from the prediction (default 3).
+	GateSigmas float64
+	// MaxFallbackConf caps the confidence of a measurement resting on the
+	// fallback (default 0.45, between the tracker's default
+	// HoldConfidence 0.4 and MinConfidence 0.5).
+	MaxFallbackConf float64
+	// MaxBridge is the most consecutive frames the fallback may carry the
+	// track alone (default 30: one second at 30 frames/s).
+	MaxBridge int
 
 	n int
-	// Counters for the summary.
-	FallbackRuns, FallbackUsed, Disagreements int
+	// broken is set when a bridge on the fallback alone failed, until the
+	// classical detector is confident again.
+	broken bool
+	bridge int // consecutive frames carried by the fallback alone
+	// Counters for the summary: fallback runs, measurements taken from
+	// it (Method "cnn", "fused" with its confidence, "disputed:cnn"),
+	// disagreements, and fallback measurements dropped by the gate.
+	FallbackRuns, FallbackUsed, Disagreements, FallbackGated int
+}
+
+func (f *Fused) defaults() (thr, agree, gate, capConf float64) {
+	thr, agree, gate, capConf = f.Threshold, f.AgreePx, f.GateSigmas, f.MaxFallbackConf
+	if thr <= 0 {
+		thr = 0.5
+	}
+	if agree <= 0 {
+		agree = 10
+	}
+	if gate <= 0 {
+		gate = 3
+	}
+	if capConf <= 0 {
+		capConf = 0.45
+	}
+	return
 }
 
 // Detect implements Detector.
@@ -45,41 +116,102 @@ func (f *Fused) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	if f.Fallback == nil {
 		return d
 	}
-	thr := f.Threshold
-	if thr <= 0 {
-		thr = 0.5
-	}
+	thr, agree, gateK, capConf := f.defaults()
 	unsure := !d.Found || d.Confidence < thr
+	if !unsure {
+		f.broken = false
+	}
+	if d.Found {
+		f.bridge = 0
+	}
 	cross := f.CrossCheck > 0 && f.n%f.CrossCheck == 0
 	if !unsure && !cross {
 		return d
 	}
 	f.FallbackRuns++
 	c := f.Fallback.Detect(img, hint)
-	use := d
-	if unsure && c.Found && (!d.Found || c.Confidence > d.Confidence) {
-		use = c
-		f.FallbackUsed++
-	}
-	if d.Found && c.Found {
-		tol := f.AgreePx
-		if tol <= 0 {
-			tol = 10
+	if !c.Found {
+		if !d.Found {
+			f.broken = true
 		}
-		tol *= float64(img.Cols()) / 640
+		return d
+	}
+	c.Confidence = math.Min(c.Confidence, capConf)
+	half := float64(img.Cols()) / 2
+	tol := agree * float64(img.Cols()) / 640
+
+	// The gate: the fallback counts only near the tracker's prediction.
+	gated, why := true, "no track to check it against"
+	if hint.Valid {
+		dOff := math.Abs(c.OffsetPx - hint.OffsetPx)
+		dHead := math.Abs(c.HeadingDeg - hint.HeadingDeg)
+		offTol := math.Max(gateK*hint.OffsetSigma, tol)
+		headTol := gateK * hint.HeadingSigma
+		switch {
+		case dOff > offTol:
+			why = fmt.Sprintf("%.0f px from the prediction (gate %.0f px)", dOff, offTol)
+		case dHead > headTol:
+			why = fmt.Sprintf("heading %.1f° from the prediction (gate %.1f°)", dHead, headTol)
+		default:
+			gated = false
+		}
+	}
+
+	if d.Found {
 		// Compare where the classical one measured: the fallback's line
 		// at the same row (its own RefRow may differ).
 		cx, ok := xAt(c.Points, d.RefRow)
 		if !ok {
-			cx = c.OffsetPx + float64(img.Cols())/2
+			cx = c.OffsetPx + half
 		}
-		if diff := math.Abs(d.OffsetPx + float64(img.Cols())/2 - cx); diff > tol {
-			f.Disagreements++
-			use.Confidence /= 2
-			use.Reason = fmt.Sprintf("classical and cnn disagree by %.0f px", diff)
+		diff := math.Abs(d.OffsetPx + half - cx)
+		if diff <= tol {
+			use := d
+			use.Method = MethodFused
+			if c.Confidence > d.Confidence {
+				use.Confidence = c.Confidence
+				f.FallbackUsed++
+			}
+			return use
 		}
+		f.Disagreements++
+		use, who := d, d.Method
+		if !gated && (!hint.Valid || math.Abs(c.OffsetPx-hint.OffsetPx) < math.Abs(d.OffsetPx-hint.OffsetPx)) {
+			use, who = c, c.Method
+			f.FallbackUsed++
+		}
+		use.Method = MethodDisputed + who
+		use.Confidence /= 2
+		use.Reason = fmt.Sprintf("classical and cnn disagree by %.0f px; kept %s", diff, who)
+		return use
 	}
-	return use
+	maxBridge := f.MaxBridge
+	if maxBridge <= 0 {
+		maxBridge = 30
+	}
+	switch {
+	case gated:
+	case f.broken:
+		gated, why = true, "the bridge on the cnn alone failed; waiting for a confident classical measurement"
+	case f.bridge >= maxBridge:
+		gated, why = true, fmt.Sprintf("the cnn alone carried the track for %d frames, the most allowed", f.bridge)
+	}
+	if gated {
+		f.FallbackGated++
+		f.broken = true
+		d.Reason = joinReason(d.Reason, "cnn ignored: "+why)
+		return d
+	}
+	f.FallbackUsed++
+	f.bridge++
+	return c
+}
+
+func joinReason(a, b string) string {
+	if a == "" {
+		return b
+	}
+	return a + "; " + b
 }
 
 // xAt interpolates a centreline's x at row y; false outside its rows.

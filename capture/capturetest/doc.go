@@ -19,4 +19,20 @@
 // they would on the cart, without real waiting. Backoff waits after a
 // Vanish step are waits on the clock too: advance it from the test (see
 // Pump).
+//
+// For a whole live loop (Supervisor, pipeline watchdog, detector, timeouts)
+// prefer a testing/synctest bubble with Clock set to Sleeper and the
+// Supervisor on its default SystemClock: every wait in the bubble is on one
+// simulated clock that moves only when all goroutines are blocked, so a
+// stall lasts exactly its length, backoff waits need no Pump, and nothing
+// depends on how busy the machine is:
+//
+//	synctest.Test(t, func(t *testing.T) {
+//		fake := capturetest.NewFakeCamera(steps...)
+//		fake.Clock = capturetest.Sleeper{}
+//		sup := v4l2.NewSupervisor(fake, v4l2.Options{})
+//		... pipeline.Run(ctx, sup, pipeline.Config{Live: true, Watchdog: 20 * time.Millisecond, ...})
+//	})
+//
+// (cmd/internal/pipeline/camera_test.go does this.)
 package capturetest

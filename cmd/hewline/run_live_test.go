@@ -244,3 +244,94 @@ func testDiskFull(t *testing.T) {
 		t.Errorf("status page does not show the recording's fault:\n%s", m.String())
 	}
 }
+
+// slowLine is alwaysLine taking work per frame (simulated time in a bubble).
+type slowLine struct{ work time.Duration }
+
+func (d slowLine) Detect(img gocv.Mat, h vision.Hint) vision.Detection {
+	time.Sleep(d.work)
+	return alwaysLine{}.Detect(img, h)
+}
+
+// TestRunPacedFileSource: run's live loop over a recording (-source):
+// the paced source hands each frame over at its timestamp, and the
+// latency sink records every frame's read-to-decision time, prints a
+// summary each period and counts frames over the budget. A detector
+// faster than the frame rate drops nothing and misses no budget; one
+// slower than it drops frames (counted on each result) and misses the
+// budget on every frame. In a synctest bubble: pacing, detection time and
+// the watchdog share simulated time.
+func TestRunPacedFileSource(t *testing.T) {
+	clip := shortClip(t, 60) // 2 s at 30 fps
+	for name, work := range map[string]time.Duration{"fast": 5 * time.Millisecond, "slow": 50 * time.Millisecond} {
+		t.Run(name, func(t *testing.T) {
+			synctest.Test(t, func(t *testing.T) {
+				f, err := capture.Open(clip)
+				if err != nil {
+					t.Fatal(err)
+				}
+				defer f.Close()
+				start := time.Now()
+				src := newPaced(f, time.Now)
+				var out bytes.Buffer
+				lat := &latencySink{out: &out, budget: frameBudget(f.Info().FPS), every: 500 * time.Millisecond}
+				count := &countSink{}
+				tr, err := guidance.NewTracker(guidance.DefaultConfig())
+				if err != nil {
+					t.Fatal(err)
+				}
+				var paced []time.Duration // when each frame was read, after start
+				var ts []time.Duration    // its timestamp
+				var lastDrops int
+				probe := sinkFunc(func(r *pipeline.Result) {
+					lastDrops = r.Drops
+					if !r.Tick {
+						paced = append(paced, r.Captured.Sub(start))
+						ts = append(ts, r.Info.T)
+					}
+				})
+				st, err := pipeline.Run(context.Background(), src, pipeline.Config{
+					Detector: slowLine{work}, Tracker: tr, Sinks: []pipeline.Sink{count, lat, probe},
+					Live: true, Watchdog: 20 * time.Millisecond,
+				})
+				if err != nil {
+					t.Fatal(err)
+				}
+				if st.Frames+st.Drops != 60 || lastDrops != st.Drops || len(lat.all) != st.Frames {
+					t.Fatalf("frames %d + drops %d (last result said %d), %d latencies: want 60 frames in all, each one timed", st.Frames, st.Drops, lastDrops, len(lat.all))
+				}
+				// Frame k is read at k/30 s after the first (the source's pacing).
+				for i := range paced {
+					if d := paced[i] - paced[0] - (ts[i] - ts[0]); d < 0 || d > time.Millisecond {
+						t.Errorf("frame at %v read %v after the first, want %v", ts[i], paced[i]-paced[0], ts[i]-ts[0])
+					}
+				}
+				summaries := strings.Count(out.String(), "decision latency p50")
+				if summaries < 2 {
+					t.Errorf("%d latency summaries in 2 s at one per 0.5 s:\n%s", summaries, out.String())
+				}
+				switch name {
+				case "fast":
+					if st.Drops != 0 || lat.missed != 0 || count.frames != 60 {
+						t.Errorf("fast detector: %d drops, %d over budget; want none", st.Drops, lat.missed)
+					}
+					if p := lat.percentiles(); p["decision_ms_p50"] != 5 || p["decision_ms_max"] != 5 {
+						t.Errorf("latency percentiles %v, want 5 ms (the detection time)", p)
+					}
+				case "slow":
+					if st.Drops == 0 || lat.missed != st.Frames || !strings.Contains(out.String(), "over the 33.3 ms frame budget") {
+						t.Errorf("slow detector: %d drops, %d of %d over budget; want drops and every frame over:\n%s", st.Drops, lat.missed, st.Frames, out.String())
+					}
+				}
+			})
+		})
+	}
+}
+
+// sinkFunc adapts a function to pipeline.Sink.
+type sinkFunc func(r *pipeline.Result)
+
+func (f sinkFunc) Frame(r *pipeline.Result, _ gocv.Mat) error {
+	f(r)
+	return nil
+}

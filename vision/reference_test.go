@@ -5,81 +5,27 @@ import (
 	"testing"
 
 	"gocv.io/x/gocv"
+
+	"github.com/hewline/hewline/vision/reffollow"
 )
 
 // plainFollower is the simple baseline the classical detector is compared
-// with: grey image, OpenCV's adaptive mean threshold (block a tenth of the
-// width, offset 10 grey levels), the largest blob touching the lower half,
-// its centroid in each of 16 row bands, and a least-squares line through
-// the centroids. It knows the stripe's polarity (the classical detector is
-// run with polarity auto). It lives in test code only.
+// with (package reffollow: adaptive mean threshold, largest blob, band
+// centroids, a least-squares line). It knows the stripe's polarity (the
+// classical detector is run with polarity auto).
 func plainFollower(img gocv.Mat, dark bool, refRow float64) Detection {
-	grey := gocv.NewMat()
-	defer grey.Close()
-	gocv.CvtColor(img, &grey, gocv.ColorBGRToGray)
-	if dark {
-		gocv.BitwiseNot(grey, &grey)
+	f := reffollow.New(dark)
+	defer f.Close()
+	l := f.Find(img, refRow)
+	if !l.Found {
+		return Detection{Reason: l.Reason}
 	}
-	bin := gocv.NewMat()
-	defer bin.Close()
-	block := max(3, img.Cols()/10) | 1
-	gocv.AdaptiveThreshold(grey, &bin, 255, gocv.AdaptiveThresholdMean, gocv.ThresholdBinary, block, -10)
-	labels, stats, cents := gocv.NewMat(), gocv.NewMat(), gocv.NewMat()
-	defer labels.Close()
-	defer stats.Close()
-	defer cents.Close()
-	n := gocv.ConnectedComponentsWithStats(bin, &labels, &stats, &cents)
-	w, h := img.Cols(), img.Rows()
-	best, bestArea := -1, 0
-	for i := 1; i < n; i++ {
-		top, height := int(stats.GetIntAt(i, 1)), int(stats.GetIntAt(i, 3))
-		area := int(stats.GetIntAt(i, 4))
-		if top+height > h/2 && area > bestArea {
-			best, bestArea = i, area
-		}
+	pts := make([]Point, len(l.Points))
+	for i, p := range l.Points {
+		pts[i] = Point{p[0], p[1]}
 	}
-	if best < 0 || bestArea < w*h/2000 {
-		return Detection{Reason: "no blob"}
-	}
-	const bands = 16
-	var sy, sx, syy, sxy, cnt float64
-	var pts []Point
-	for b := bands - 1; b >= 0; b-- {
-		y0, y1 := b*h/bands, (b+1)*h/bands
-		var xs, k float64
-		for y := y0; y < y1; y++ {
-			for x := 0; x < w; x++ {
-				if int(labels.GetIntAt(y, x)) == best {
-					xs += float64(x)
-					k++
-				}
-			}
-		}
-		if k == 0 {
-			continue
-		}
-		x, y := xs/k, float64(y0+y1-1)/2
-		pts = append(pts, Point{x, y})
-		sy += y
-		sx += x
-		syy += y * y
-		sxy += x * y
-		cnt++
-	}
-	if cnt < 2 {
-		return Detection{Reason: "too few bands"}
-	}
-	slope := (cnt*sxy - sx*sy) / (cnt*syy - sy*sy)
-	icpt := (sx - slope*sy) / cnt
-	for len(pts) < 8 {
-		pts = append(pts, pts[len(pts)-1])
-	}
-	return Detection{
-		Found: true, Points: pts, RefRow: refRow,
-		OffsetPx:   icpt + slope*refRow - float64(w)/2,
-		HeadingDeg: math.Atan(-slope) * 180 / math.Pi,
-		Confidence: 1, Method: "plain",
-	}
+	return Detection{Found: true, Points: pts, RefRow: l.RefRow, OffsetPx: l.OffsetPx,
+		HeadingDeg: l.HeadingDeg, Confidence: 1, Method: "plain"}
 }
 
 // offsetOK is the per-frame test used in the comparison: the offset at the

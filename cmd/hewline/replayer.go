@@ -54,12 +54,20 @@ type replayOptions struct {
 	cnn      bool
 	cnnModel string
 	cnnCheck int
+	// baseline replaces the detector with the plain reference follower
+	// (package reffollow), told the stripe is dark when baselineDark; for
+	// the demo's comparison rows only.
+	baseline, baselineDark bool
 }
 
 // newDetector builds the detector stage: the classical detector, fused with
 // the CNN fallback unless it is switched off. The returned close releases
 // both.
 func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
+	if o.baseline {
+		p := newPlainDetector(o.baselineDark)
+		return &pipeline.Fused{Primary: p}, func() { p.Close() }, nil
+	}
 	cl, err := vision.NewClassical(o.vision)
 	if err != nil {
 		return nil, nil, err

@@ -35,7 +35,7 @@ func init() {
 }
 
 func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-	fs := newFlags("train", "[-o model.onnx] [-seed N] [-epochs N] [-frames N] [-synth N] [-site CLIP]...", stderr)
+	fs := newFlags("train", "[-o model.onnx] [-seed N] [-epochs N] [-frames N] [-synth N] [-site CLIP]... [CLIP...]", stderr)
 	out := fs.String("o", "model.onnx", "where to write the trained model")
 	seed := fs.Uint64("seed", 1, "random seed for scenes, weights, split and shuffling")
 	epochs := fs.Int("epochs", 30, "most passes over the training data (early stopping may end sooner)")
@@ -52,13 +52,11 @@ func runTrain(ctx context.Context, args []string, stdout, stderr io.Writer) erro
 	mirror := fs.Bool("mirror", true, "also learn from left-right mirror images")
 	logPath := fs.String("log", "", "also write the loss/accuracy log to this file")
 	var sites listFlag
-	fs.Var(&sites, "site", "a site recording (video file or image folder) to label and learn from; repeatable")
+	fs.Var(&sites, "site", "a site recording (video file or image folder) to label and learn from; repeatable, and any arguments are site recordings too (hewline train -site rec/*.avi)")
 	if err := parseFlags(fs, args); err != nil {
 		return err
 	}
-	if fs.NArg() != 0 {
-		return usagef("unexpected arguments %v", fs.Args())
-	}
+	sites = append(sites, fs.Args()...)
 	if *frames < 0 || *synthFrames < 0 || *epochs < 1 || *batch < 1 || *lr <= 0 || *decay <= 0 || *decay > 1 || *val <= 0 || *val >= 1 || *patience < 1 {
 		return usagef("-frames ≥ 0, -synth ≥ 0, -epochs ≥ 1, -batch ≥ 1, -lr > 0, 0 < -decay ≤ 1, 0 < -val < 1 and -patience ≥ 1")
 	}

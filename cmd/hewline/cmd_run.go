@@ -305,16 +305,12 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 	lat := &latencySink{out: stdout, budget: frameBudget(info.FPS), every: time.Minute}
 	sinks := []pipeline.Sink{&pipeline.LogSink{W: lw}, &pipeline.AudioSink{Player: player, Live: true, FullScaleMM: *cueMM}, lat}
+	var stream *pipeline.StreamSink
 	if sender != nil {
-		sinks = append(sinks, &pipeline.StreamSink{Sender: sender})
+		stream = &pipeline.StreamSink{Sender: sender}
+		sinks = append(sinks, stream)
 	}
-	watch := &outputWatch{Log: stderr, Every: 500 * time.Millisecond, Speaker: *speaker, Player: player, Rec: rec}
-	if health != nil {
-		watch.Health = health
-	}
-	if sender != nil {
-		watch.Stream = sinks[len(sinks)-1].(*pipeline.StreamSink)
-	}
+	watch := &outputWatch{Log: stderr, Health: health, Every: 500 * time.Millisecond, Speaker: *speaker, Player: player, Stream: stream, Rec: rec}
 	if rec != nil {
 		sinks = append(sinks, &pipeline.RecordSink{B: rec})
 	}

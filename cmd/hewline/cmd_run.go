@@ -58,6 +58,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	recTime := fs.Duration("record-rotate", 10*time.Minute, "start a new recording file after this long")
 	cueMM := fs.Float64("cue-full-scale-mm", 0, "with -calib: the floor offset in `MM` that gives the strongest cue (0 = a quarter of the frame width in pixels)")
 	watchdog := fs.Duration("watchdog", 20*time.Millisecond, "tick the fail-safe this often when no frame comes")
+	camStall := fs.Duration("camera-stall", 250*time.Millisecond, "raise the fail-safe at once when the camera sends no frame for this long (it is reopened after 2 s)")
 	sf := addStatusFlags(fs)
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
@@ -131,13 +132,16 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	var src liveSource
 	var transient func(error) bool
 	if *camera != "" {
-		cam, err := v4l2.OpenCamera(*camera, site.CameraPreference(), v4l2.Options{OnEvent: cameraEvents(stderr, health, *camera)})
+		if *camStall <= 0 {
+			return usagef("-camera-stall %v must be positive", *camStall)
+		}
+		cam, err := v4l2.OpenCamera(*camera, site.CameraPreference(), v4l2.Options{StallAfter: *camStall, OnEvent: cameraEvents(stderr, health, *camera)})
 		if err != nil {
 			return fmt.Errorf("camera %s: %w", *camera, err)
 		}
 		src = cam
 		transient = func(err error) bool { return errors.Is(err, v4l2.ErrStalled) || errors.Is(err, v4l2.ErrGone) }
-		fmt.Fprintf(stdout, "camera:      %s\n", cam)
+		fmt.Fprintf(stdout, "camera:      %s; fail-safe when no frame for %v\n", cam, *camStall)
 	} else {
 		f, err := capture.Open(*source)
 		if err != nil {

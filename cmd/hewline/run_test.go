@@ -62,11 +62,14 @@ func TestRunNoAlarmChannelExits3(t *testing.T) {
 }
 
 // TestRunSIGTERM: the live loop on a paced recording is stopped with
-// SIGTERM and leaves a complete, verifiable track log.
+// SIGTERM and leaves a complete, verifiable track log and a finished
+// recording (its AVI index written: it opens, and holds the frames its
+// sidecar lists).
 func TestRunSIGTERM(t *testing.T) {
-	clip := shortClip(t, 300) // 10 s paced: longer than the test waits
+	clip := shortClip(t, 150) // 5 s paced: longer than the test waits
 	logPath := filepath.Join(t.TempDir(), "run.ndjson")
-	cmd := exec.Command(binary, "run", "-speaker-stall", "3s", "-source", clip, "-track", logPath)
+	recDir := filepath.Join(t.TempDir(), "rec")
+	cmd := exec.Command(binary, "run", "-speaker-stall", "3s", "-source", clip, "-track", logPath, "-record", recDir)
 	cmd.Env = append(os.Environ(), "ALSA_CONFIG_PATH="+nullALSA(t))
 	var out strings.Builder
 	cmd.Stdout, cmd.Stderr = &out, &out
@@ -100,13 +103,29 @@ func TestRunSIGTERM(t *testing.T) {
 	if err != nil {
 		t.Fatalf("log after SIGTERM: %v", err)
 	}
-	if l.Summary == nil || l.Summary.End != "interrupted" || len(l.Records) < 20 || len(l.Records) >= 300 {
+	if l.Summary == nil || l.Summary.End != "interrupted" || len(l.Records) < 20 || len(l.Records) >= 150 {
 		t.Fatalf("summary %+v with %d records", l.Summary, len(l.Records))
 	}
 	for _, want := range []string{"not a certified safety function", "speaker:     ok", "fail-safe after 300ms", "stopped (interrupted)"} {
 		if !strings.Contains(out.String(), want) {
 			t.Errorf("output lacks %q:\n%s", want, out.String())
 		}
+	}
+	recClip := filepath.Join(recDir, "rec-0001.avi")
+	ts, err := record.ReadSidecar(record.SidecarPath(recClip))
+	if err != nil || len(ts) < 20 {
+		t.Fatalf("recording's sidecar after SIGTERM: %d frames, %v", len(ts), err)
+	}
+	// ffprobe (FFmpeg, Debian package ffmpeg), an outside reader, decodes
+	// every frame of the recording: it must hold as many as its sidecar
+	// lists, none cut short by the stop.
+	probe, err := exec.Command("ffprobe", "-v", "error", "-select_streams", "v:0", "-count_frames",
+		"-show_entries", "stream=nb_read_frames", "-of", "csv=p=0", recClip).Output()
+	if err != nil {
+		t.Fatalf("ffprobe %s: %v", recClip, err)
+	}
+	if n, err := strconv.Atoi(strings.TrimSpace(string(probe))); err != nil || n != len(ts) {
+		t.Errorf("ffprobe reads %q frames from the recording, its sidecar lists %d", strings.TrimSpace(string(probe)), len(ts))
 	}
 }
 

@@ -92,7 +92,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err != nil {
 		return err
 	}
-	var health healthSetter
+	var health statusBoard
 	if srv != nil {
 		health = srv
 		defer srv.Close()
@@ -131,6 +131,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 	var src liveSource
 	var transient func(error) bool
+	var sourceDrops func() uint64
 	if *camera != "" {
 		if *camStall <= 0 {
 			return usagef("-camera-stall %v must be positive", *camStall)
@@ -140,6 +141,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 			return fmt.Errorf("camera %s: %w", *camera, err)
 		}
 		src = cam
+		sourceDrops = func() uint64 { return cam.Stats().Drops }
 		transient = func(err error) bool { return errors.Is(err, v4l2.ErrStalled) || errors.Is(err, v4l2.ErrGone) }
 		fmt.Fprintf(stdout, "camera:      %s; fail-safe when no frame for %v\n", cam, *camStall)
 	} else {
@@ -314,7 +316,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		stream = &pipeline.StreamSink{Sender: sender}
 		sinks = append(sinks, stream)
 	}
-	watch := &outputWatch{Log: stderr, Health: health, Every: 500 * time.Millisecond, Speaker: *speaker, Player: player, Stream: stream, Rec: rec}
+	watch := &outputWatch{Log: stderr, Health: health, Every: 500 * time.Millisecond, Speaker: *speaker, Player: player, Stream: stream, Rec: rec, SourceDrops: sourceDrops}
 	if rec != nil {
 		sinks = append(sinks, &pipeline.RecordSink{B: rec})
 	}
@@ -365,6 +367,11 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	extra := map[string]float64{"drops": float64(st.Drops), "faults": float64(st.Faults), "watchdog_ticks": float64(st.Ticks), "budget_missed": float64(lat.missed)}
 	for k, v := range lat.percentiles() {
 		extra[k] = v
+	}
+	if sourceDrops != nil {
+		n := sourceDrops()
+		extra["camera_drops"] = float64(n)
+		fmt.Fprintf(stdout, "camera:      %d stale frames dropped by the camera reader\n", n)
 	}
 	if err := lw.Close(end, extra); err != nil && runErr == nil {
 		runErr = err

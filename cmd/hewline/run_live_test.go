@@ -196,7 +196,7 @@ func testDiskFull(t *testing.T) {
 	defer srv.Close()
 	var log bytes.Buffer
 	count := &countSink{}
-	watch := &outputWatch{Log: &log, Health: srv, Rec: bg}
+	watch := &outputWatch{Log: &log, Health: srv, Rec: bg, SourceDrops: func() uint64 { return 5 }}
 	tr, err := guidance.NewTracker(guidance.DefaultConfig())
 	if err != nil {
 		t.Fatal(err)
@@ -240,8 +240,8 @@ func testDiskFull(t *testing.T) {
 	clip.Close()
 	var m strings.Builder
 	srv.WriteMetrics(&m)
-	if !strings.Contains(m.String(), `hewline_health{part="recording"} 0`) {
-		t.Errorf("status page does not show the recording's fault:\n%s", m.String())
+	if !strings.Contains(m.String(), `hewline_health{part="recording"} 0`) || !strings.Contains(m.String(), "hewline_source_drops_total 5") {
+		t.Errorf("status page does not show the recording's fault or the camera reader's drops:\n%s", m.String())
 	}
 }
 

@@ -78,6 +78,13 @@ type healthSetter interface {
 	SetHealth(name string, ok bool, detail string)
 }
 
+// statusBoard is what the output watch reports to: health and the
+// source's drop count (a *status.Server).
+type statusBoard interface {
+	healthSetter
+	SetSourceDrops(total uint64)
+}
+
 func setHealth(h healthSetter, name string, ok bool, detail string) {
 	if h != nil {
 		h.SetHealth(name, ok, detail)
@@ -111,8 +118,11 @@ func cameraEvents(stderr io.Writer, h healthSetter, device string) func(v4l2.Eve
 // sinks' counters.
 type outputWatch struct {
 	Log    io.Writer
-	Health healthSetter // nil: no status page
+	Health statusBoard // nil: no status page
 	Every  time.Duration
+	// SourceDrops, when set, gives the frames the source dropped before
+	// the pipeline (the camera reader's count).
+	SourceDrops func() uint64
 	// Speaker: the speaker was asked for; Player tells whether it still works.
 	Speaker bool
 	Player  *audio.Player
@@ -149,6 +159,9 @@ func (w *outputWatch) report() {
 	h := w.Health
 	if h == nil {
 		return
+	}
+	if w.SourceDrops != nil {
+		h.SetSourceDrops(w.SourceDrops())
 	}
 	if w.Speaker {
 		if chans := w.Player.Channels(true); slices.Contains(chans, "speaker") {

@@ -47,9 +47,11 @@ type State struct {
 	Frames     uint64   `json:"frames"`
 	Ticks      uint64   `json:"ticks"`
 	Drops      uint64   `json:"drops"`
-	Skipped    uint64   `json:"skipped"`
-	Alarms     uint64   `json:"alarms"`
-	Health     []Health `json:"health"`
+	// SourceDrops: frames the camera reader dropped as stale.
+	SourceDrops uint64   `json:"source_drops"`
+	Skipped     uint64   `json:"skipped"`
+	Alarms      uint64   `json:"alarms"`
+	Health      []Health `json:"health"`
 	// StreamFrame is the frame index of the latest JPEG (-1 for none).
 	StreamFrame int     `json:"stream_frame"`
 	History     History `json:"history"`
@@ -91,6 +93,7 @@ func (s *Server) snapshot() State {
 		Frames:      s.frames,
 		Ticks:       s.ticks,
 		Drops:       s.drops,
+		SourceDrops: s.sourceDrops,
 		Skipped:     s.skipped,
 		Alarms:      s.alarms,
 		Health:      []Health{},
@@ -173,6 +176,8 @@ func (s *Server) WriteMetrics(w io.Writer) error {
 	p.sample("hewline_ticks_total", float64(s.ticks))
 	p.family("hewline_drops_total", "counter", "Frames the live pipeline dropped as stale (Result.Drops, or as set by the run loop).")
 	p.sample("hewline_drops_total", float64(s.drops))
+	p.family("hewline_source_drops_total", "counter", "Frames the source dropped as stale before the pipeline (the camera reader keeps only the freshest).")
+	p.sample("hewline_source_drops_total", float64(s.sourceDrops))
 	p.family("hewline_frames_skipped_total", "counter", "Frame indices missing between processed frames (drops and capture losses).")
 	p.sample("hewline_frames_skipped_total", float64(s.skipped))
 	p.family("hewline_alarms_total", "counter", "Times the fail-safe alarm came on.")

@@ -77,6 +77,7 @@ type Server struct {
 	lastIndex     int
 	frames, ticks uint64
 	drops         uint64
+	sourceDrops   uint64
 	skipped       uint64
 	alarms        uint64
 	stateTime     [numStates]time.Duration

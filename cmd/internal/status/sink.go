@@ -203,6 +203,18 @@ func (s *Server) SetDrops(total int) {
 	s.mu.Unlock()
 }
 
+// SetSourceDrops sets the number of frames the source dropped before the
+// pipeline saw them (a camera reader keeping only the freshest frame),
+// exported as hewline_source_drops_total. Like SetDrops it never goes
+// down. Safe for concurrent use.
+func (s *Server) SetSourceDrops(total uint64) {
+	s.mu.Lock()
+	if total > s.sourceDrops {
+		s.sourceDrops = total
+	}
+	s.mu.Unlock()
+}
+
 // healthNames returns the health entry names in order; s.mu must be held.
 func (s *Server) healthNames() []string {
 	names := make([]string, 0, len(s.health))

@@ -303,12 +303,16 @@ func TestMetricsCountWhatWasFed(t *testing.T) {
 	perState, onsets, n := feedScript(t, s, clk)
 	empty := gocv.NewMat()
 	defer empty.Close()
-	s.Frame(&pipeline.Result{Info: capture.FrameInfo{Index: n - 1}, Tick: true,
+	// The watchdog's result carries the pipeline's drop count so far (6);
+	// SetDrops with less changes nothing: a counter never goes down.
+	s.Frame(&pipeline.Result{Info: capture.FrameInfo{Index: n - 1}, Tick: true, Drops: 6,
 		Est: guidance.Estimate{State: guidance.Lost, Alarm: true, Reason: "camera stalled"}}, empty)
 	clk.Add(250 * time.Millisecond)
 	perState["lost"] += 0.25
 	s.SetDrops(4)
-	s.SetDrops(2) // a counter never goes down
+	s.SetDrops(2)
+	s.SetSourceDrops(9)
+	s.SetSourceDrops(3)
 	s.SetHealth("camera", true, "/dev/video0 30 fps")
 	s.SetHealth(`speaker "left"`, false, "no sound card")
 
@@ -320,7 +324,8 @@ func TestMetricsCountWhatWasFed(t *testing.T) {
 	want := map[string]float64{
 		"hewline_frames_total":                               float64(n),
 		"hewline_ticks_total":                                1,
-		"hewline_drops_total":                                4,
+		"hewline_drops_total":                                6,
+		"hewline_source_drops_total":                         9,
 		"hewline_frames_skipped_total":                       0,
 		"hewline_alarms_total":                               float64(onsets),
 		"hewline_alarm":                                      1,

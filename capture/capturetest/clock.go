@@ -88,7 +88,9 @@ func (c *Clock) Pending() int {
 
 // Pump advances the clock by step every real interval until the returned
 // stop function is called. Use it when the code under test waits on the
-// clock with nobody else moving it (backoff after a Vanish step).
+// clock with nobody else moving it (backoff after a Vanish step). Pumped
+// time runs ahead of the goroutines under load, so timeouts fire in bursts
+// (stall storms): for timing checks prefer a synctest bubble with Sleeper.
 func (c *Clock) Pump(step, interval time.Duration) (stop func()) {
 	done := make(chan struct{})
 	finished := make(chan struct{})

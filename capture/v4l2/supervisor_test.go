@@ -6,6 +6,7 @@ import (
 	"io"
 	"sync"
 	"testing"
+	"testing/synctest"
 	"time"
 
 	"github.com/hewline/hewline/capture"
@@ -273,63 +274,82 @@ func TestLongStallReopens(t *testing.T) {
 }
 
 // An unplugged camera is reported at once, reopened with exponential
-// backoff (capped), and resumes.
+// backoff (capped), and resumes. It runs in a testing/synctest bubble: the
+// fake camera sleeps its frame interval (capturetest.Sleeper) and the
+// Supervisor waits on the process clock, both simulated there, so the
+// backoff waits are exact and need nobody to move a clock; with the
+// default StallAfter, the outage gives no stall events (no storm), only
+// the loss.
 func TestVanishReopensWithBackoff(t *testing.T) {
-	// StallAfter is long here so that only the loss shows while the test
-	// pumps the clock (stalls have their own tests).
-	r := newRig(t, v4l2.Options{EveryFrame: true, StallAfter: time.Hour, BackoffMin: 100 * time.Millisecond, BackoffMax: 250 * time.Millisecond},
-		capturetest.Frames(2, capturetest.YUYV320),
-		capturetest.Vanish(3),
-		capturetest.Frames(2, capturetest.YUYV320),
-	)
-	// Nothing moves the clock during the backoff waits: pump it. The loss
-	// may be reported before the second frame, which is still delivered.
-	stop := r.clk.Pump(10*time.Millisecond, time.Millisecond)
-	sawGone := false
-	for i := 0; i < 4; i++ {
-		_, errs := r.readFrame(t)
-		for _, err := range errs {
-			switch {
-			case errors.Is(err, v4l2.ErrGone):
-				sawGone = true
-			case errors.Is(err, v4l2.ErrStalled):
-			default:
-				t.Errorf("unexpected error %v", err)
+	synctest.Test(t, func(t *testing.T) {
+		ev := &recorder{}
+		fake := capturetest.NewFakeCamera(
+			capturetest.Frames(2, capturetest.YUYV320),
+			capturetest.Vanish(3),
+			capturetest.Frames(2, capturetest.YUYV320),
+		)
+		fake.Clock = capturetest.Sleeper{}
+		sup := v4l2.NewSupervisor(fake, v4l2.Options{Name: "fake0", EveryFrame: true, OnEvent: ev.add,
+			BackoffMin: 100 * time.Millisecond, BackoffMax: 250 * time.Millisecond})
+		if err := sup.Start(); err != nil {
+			t.Fatal(err)
+		}
+		defer sup.Close()
+		r := &rig{fake: fake, sup: sup, ev: ev, dst: gocv.NewMat()}
+		defer r.dst.Close()
+		// The loss may be reported before the second frame, which is
+		// still delivered.
+		sawGone := false
+		for i := 0; i < 4; i++ {
+			_, errs := r.readFrame(t)
+			for _, err := range errs {
+				switch {
+				case errors.Is(err, v4l2.ErrGone):
+					sawGone = true
+				case errors.Is(err, v4l2.ErrStalled):
+				default:
+					t.Errorf("unexpected error %v", err)
+				}
+			}
+			if k := frameNumber(t, r.dst); k != i {
+				t.Errorf("frame %d carries %d", i, k)
 			}
 		}
-		if k := frameNumber(t, r.dst); k != i {
-			t.Errorf("frame %d carries %d", i, k)
+		sup.Close()
+		if !sawGone {
+			t.Error("Read never returned ErrGone")
 		}
-	}
-	stop()
-	if !sawGone {
-		t.Error("Read never returned ErrGone")
-	}
-	failed := r.ev.of(v4l2.EventOpenFailed)
-	wantBackoff := []time.Duration{100 * time.Millisecond, 200 * time.Millisecond, 250 * time.Millisecond}
-	if len(failed) != 3 {
-		t.Fatalf("open-failed events %v", failed)
-	}
-	for i, e := range failed {
-		if e.Attempt != i+1 || e.Backoff != wantBackoff[i] || !errors.Is(e.Err, capture.ErrNotFound) {
-			t.Errorf("attempt %d: %v, want backoff %v", i+1, e, wantBackoff[i])
+		failed := ev.of(v4l2.EventOpenFailed)
+		wantBackoff := []time.Duration{100 * time.Millisecond, 200 * time.Millisecond, 250 * time.Millisecond}
+		if len(failed) != 3 {
+			t.Fatalf("open-failed events %v", failed)
 		}
-	}
-	if d := failed[2].At.Sub(failed[0].At); d < 300*time.Millisecond {
-		t.Errorf("third attempt %v after the first, want ≥ 300 ms of backoff", d)
-	}
-	opened := r.ev.of(v4l2.EventOpened)
-	if len(opened) != 2 || opened[1].Attempt != 4 {
-		t.Errorf("opened events %v, want the start and attempt 4", opened)
-	}
-	seq := r.ev.kinds(v4l2.EventGone, v4l2.EventOpened, v4l2.EventResumed, v4l2.EventStalled)
-	want := []v4l2.EventKind{v4l2.EventOpened, v4l2.EventGone, v4l2.EventOpened, v4l2.EventResumed}
-	if fmt.Sprint(seq) != fmt.Sprint(want) {
-		t.Errorf("events %v, want %v", seq, want)
-	}
-	if st := r.sup.Stats(); st.Losses != 1 || st.Reopens != 1 || st.Frames != 4 {
-		t.Errorf("stats %+v", st)
-	}
+		for i, e := range failed {
+			if e.Attempt != i+1 || e.Backoff != wantBackoff[i] || !errors.Is(e.Err, capture.ErrNotFound) {
+				t.Errorf("attempt %d: %v, want backoff %v", i+1, e, wantBackoff[i])
+			}
+			if i > 0 {
+				if d := e.At.Sub(failed[i-1].At); d != wantBackoff[i-1] {
+					t.Errorf("attempt %d came %v after the one before, want its backoff %v", i+1, d, wantBackoff[i-1])
+				}
+			}
+		}
+		opened := ev.of(v4l2.EventOpened)
+		if len(opened) != 2 || opened[1].Attempt != 4 {
+			t.Fatalf("opened events %v, want the start and attempt 4", opened)
+		}
+		if d := opened[1].At.Sub(failed[2].At); d != wantBackoff[2] {
+			t.Errorf("reopened %v after the last failure, want its backoff %v", d, wantBackoff[2])
+		}
+		seq := ev.kinds(v4l2.EventGone, v4l2.EventOpened, v4l2.EventResumed, v4l2.EventStalled)
+		want := []v4l2.EventKind{v4l2.EventOpened, v4l2.EventGone, v4l2.EventOpened, v4l2.EventResumed}
+		if fmt.Sprint(seq) != fmt.Sprint(want) {
+			t.Errorf("events %v, want %v", seq, want)
+		}
+		if st := sup.Stats(); st.Losses != 1 || st.Reopens != 1 || st.Frames != 4 {
+			t.Errorf("stats %+v", st)
+		}
+	})
 }
 
 // Undecodable frames (a JPEG header followed by noise, a short YUYV

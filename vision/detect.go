@@ -224,6 +224,9 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		{0.3 + 0.7*clamp01((r.meanSNR-c.cfg.MinSNR)/(2*c.cfg.MinSNR)), "low contrast"},
 		{1 - clamp01((second/r.score-0.3)/0.6), "ambiguous: another line nearly as strong"},
 		{1 - 0.7*r.satShare, "saturated (glare or reflection)"},
+		// Most of the near half clipped: a reflection streak in line with
+		// a farther stretch of line, not tape (glare saturates only spots).
+		{1 - clamp01(2*(r.nearSat-0.4)), "near part saturated (a mirrored lamp?)"},
 	}
 	// Near the vehicle a stripe is wide: a hairline there (under 1.2 % of
 	// the frame width, or under half the configured width) is more likely

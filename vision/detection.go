@@ -29,6 +29,25 @@ type Detection struct {
 	// Reason says, when Found is false or Confidence is low, why
 	// ("no candidates", "too few rows", "poor fit", ...).
 	Reason string
+	// Lane is set by the lane detector: the two boundaries and the
+	// lane's width. Points, OffsetPx and HeadingDeg are then the lane's
+	// centre, and WidthPx the boundaries' mean line width. Nil in stripe
+	// mode.
+	Lane *LaneMeasure
+}
+
+// LaneMeasure is the lane detector's view of the two boundary lines.
+type LaneMeasure struct {
+	// Left and Right are the boundaries' centrelines, near end first; a
+	// boundary not seen in this frame is empty.
+	Left, Right []Point
+	// WidthPx is the lane's width at RefRow (the horizontal distance
+	// between the boundaries' centrelines): measured when both are seen,
+	// the learned width otherwise.
+	WidthPx float64
+	// BothSeen is false when the centre was inferred from one boundary
+	// and the learned width.
+	BothSeen bool
 }
 
 // Hint is what the tracker expects the stripe to look like in this frame.

@@ -31,6 +31,10 @@ type fitResult struct {
 	rms      float64 // residual in units of the inlier tolerance
 	meanSNR  float64
 	satShare float64
+	// nearSat is satShare over the inliers in the near (lower) half of
+	// the ROI: a line whose near part is all clipped pixels is more likely
+	// a mirrored lamp bridging to a line farther on than tape.
+	nearSat float64
 }
 
 // fitter holds the fit's scratch memory.
@@ -293,12 +297,18 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 	}
 	// Summaries.
 	res.yLo, res.yHi = math.Inf(1), math.Inf(-1)
-	var r2, snr, sat, n float64
+	var r2, snr, sat, n, nearN, nearS float64
 	for _, i := range res.bands {
 		if i < 0 {
 			continue
 		}
 		cd := &c.cands[i]
+		if 2*cd.band < l.n {
+			nearN++
+			if cd.sat {
+				nearS++
+			}
+		}
 		res.yLo = math.Min(res.yLo, cd.y)
 		res.yHi = math.Max(res.yHi, cd.y)
 		d := (cd.x - res.centre.x(cd.y)) / tolerance(cd, ww)
@@ -316,6 +326,10 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 	res.rms = math.Sqrt(r2 / n)
 	res.meanSNR = snr / n
 	res.satShare = sat / n
+	res.nearSat = 0
+	if nearN > 0 {
+		res.nearSat = nearS / nearN
+	}
 	res.ok = true
 }
 

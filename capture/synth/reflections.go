@@ -36,6 +36,12 @@ func (r *Renderer) tubeGlow(st *cartState, x, y, fp float64) float64 {
 	var s float64
 	for i := range tubes {
 		tb := &tubes[i]
+		if i < len(r.tubeBox) {
+			// outside the floor box of this lamp's mirror image: dark
+			if b := &r.tubeBox[i]; x < b[0] || x > b[2] || y < b[1] || y > b[3] {
+				continue
+			}
+		}
 		k := tb.Z / c.z
 		qx, qy := x+(x-c.x)*k, y+(y-c.y)*k
 		// the pixel's footprint magnified to lamp height
@@ -46,6 +52,35 @@ func (r *Renderer) tubeGlow(st *cartState, x, y, fp float64) float64 {
 		}
 	}
 	return r.sc.Floor.Gloss * s
+}
+
+// boxTubes computes each lamp's floor box for the rows' camera states
+// sts (one, or one per row with a rolling shutter): where its mirror image
+// can show, P = C + (L − C)·C.z/(C.z + Z) for the lamp's points L, over
+// the first and last row's camera (the camera moves straight within a
+// frame), grown by its half width and blur and a margin for the pixels'
+// footprint (10 cm). Call before shading a frame's rows.
+func (r *Renderer) boxTubes(sts []cartState) {
+	tubes := r.sc.Light.Tubes
+	r.tubeBox = r.tubeBox[:0]
+	if len(tubes) == 0 || r.sc.Floor.Gloss <= 0 || len(sts) == 0 {
+		return
+	}
+	for i := range tubes {
+		tb := &tubes[i]
+		b := [4]float64{math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)}
+		for _, st := range []*cartState{&sts[0], &sts[len(sts)-1]} {
+			c := st.pose.c
+			k := c.z / (c.z + tb.Z)
+			m := (tb.WidthM/2+tb.BlurM)*k + 0.1
+			for _, p := range [][2]float64{{tb.X1, tb.Y1}, {tb.X2, tb.Y2}} {
+				x, y := c.x+(p[0]-c.x)*k, c.y+(p[1]-c.y)*k
+				b[0], b[1] = math.Min(b[0], x-m), math.Min(b[1], y-m)
+				b[2], b[3] = math.Max(b[2], x+m), math.Max(b[3], y+m)
+			}
+		}
+		r.tubeBox = append(r.tubeBox, b)
+	}
 }
 
 // segDist is the distance from (x, y) to the segment (x1, y1)–(x2, y2).

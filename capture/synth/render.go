@@ -145,6 +145,9 @@ type Renderer struct {
 	tex      *texture
 	// shadowBox[i] is the bounding box of Light.Shadows[i] at t = 0
 	shadowBox [][4]float64
+	// tubeBox[i] is the floor box of Light.Tubes[i]'s mirror image for
+	// the instant being shaded (boxTubes)
+	tubeBox [][4]float64
 	// specMin is the half-vector cosine below which a highlight is < 1e-3
 	specMin float64
 	shake   [6]float64
@@ -527,6 +530,7 @@ func (r *Renderer) render(i int) truth.Frame {
 			tk = t + r.sc.Light.ExposureS*(float64(k)/float64(n-1)-0.5)
 		}
 		sts := r.rowStates(tk)
+		r.boxTubes(sts)
 		r.parallel(func(j0, j1 int) { r.castRows(sts, j0, j1) })
 		last := k == n-1
 		r.parallel(func(j0, j1 int) { r.shadeRows(sts, j0, j1, n, last, i) })

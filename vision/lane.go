@@ -1,0 +1,613 @@
+package vision
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gocv.io/x/gocv"
+)
+
+// MethodLane is Detection.Method of the lane detector.
+const MethodLane = "lane"
+
+// LaneConfig holds the lane detector's settings beyond the Config it
+// shares with the stripe detector.
+type LaneConfig struct {
+	// LearnRate is the weight of one frame's measured width in the
+	// learned lane width, per row band (default 0.5: the width seen in a
+	// curve changes within a second, and the fitted boundaries are smooth
+	// enough to need little averaging).
+	LearnRate float64
+	// OneSideFactor multiplies the confidence when the centre comes from
+	// one boundary and the learned width (default 0.6).
+	OneSideFactor float64
+	// MaxSaturated is the largest share of saturated candidates a
+	// boundary may have; a line made mostly of clipped pixels is taken for
+	// a mirrored lamp, not tape (default 0.5).
+	MaxSaturated float64
+}
+
+// DefaultLaneConfig returns the settings described on each field.
+func DefaultLaneConfig() LaneConfig {
+	return LaneConfig{LearnRate: 0.5, OneSideFactor: 0.6, MaxSaturated: 0.5}
+}
+
+// Validate reports the first setting that cannot work.
+func (lc LaneConfig) Validate() error {
+	var errs []error
+	if !(lc.LearnRate > 0 && lc.LearnRate <= 1) {
+		errs = append(errs, fmt.Errorf("vision: lane learn rate %v: want (0, 1]", lc.LearnRate))
+	}
+	if !(lc.OneSideFactor > 0 && lc.OneSideFactor < 1) {
+		errs = append(errs, fmt.Errorf("vision: lane one-side factor %v: want (0, 1)", lc.OneSideFactor))
+	}
+	if !(lc.MaxSaturated >= 0 && lc.MaxSaturated <= 1) {
+		errs = append(errs, fmt.Errorf("vision: lane max saturated share %v: want [0, 1]", lc.MaxSaturated))
+	}
+	return errors.Join(errs...)
+}
+
+// Lane is the lane detector: it finds the two boundary lines of a lane
+// with the classical detector's candidate extraction and robust fit, and
+// reports the lane's centre, midway between them, as the Detection (so
+// the tracker, cues and fail-safe work on the centre unchanged). Per
+// frame:
+//
+//  1. candidates per row band, as in Classical;
+//  2. with the tracker's prediction and a lane seen before, each
+//     boundary is fitted among the candidates inside its own gate (the
+//     prediction shifted by that boundary's place relative to the centre
+//     last seen); otherwise up to three lines are fitted in turn, each
+//     from candidates no earlier line uses, and the best pair that can be
+//     a lane (not crossing, apart by the learned width when there is one)
+//     is kept;
+//  3. a line is no boundary when most of its candidates are saturated
+//     (a mirrored ceiling lamp on a glossy floor), when it is short (the
+//     stripe detector's minimum span), or when it is far from where the
+//     tracked lane puts it;
+//  4. while both are seen, the lane's width is learned per row band;
+//     with one, the centre is that line shifted by half the learned width
+//     and the confidence is lowered; with none, nothing is found and the
+//     fail-safe follows as in stripe mode.
+//
+// A Lane keeps state between frames (the learned width and the last
+// boundaries): use one per clip or camera, not safe for concurrent use.
+type Lane struct {
+	c  *Classical
+	lc LaneConfig
+	// width[k] is the learned width of band k in working pixels, across
+	// the lane's direction in the image (the horizontal width times the
+	// cosine of the centre's image angle, so that it holds when the lane
+	// turns), 0 when not yet learned; it belongs to the layout key.
+	// turn[s][k] is the image angle of boundary s less the centre's there
+	// (radians; the lines converge with perspective).
+	width []float64
+	turn  [2][]float64
+	key   [3]int
+	// wline is a straight line w(y) through the learned widths (a flat
+	// lane's width in the image grows linearly with the distance below the
+	// horizon), for bands where no width was learned; wlineOK when set.
+	wline   curve
+	wlineOK bool
+	// prev: boundaries and centre at the reference row (input pixels,
+	// degrees) in the last frame with a detection.
+	prevSide   [2]sideAt
+	prevCurve  [2]curve // the boundaries in working pixels
+	prevCentre sideAt
+	prevOK     bool
+	fits       [3]fitResult
+	sides      [2]fitResult
+}
+
+// sideAt is a line's offset and heading at the reference row.
+type sideAt struct{ off, head float64 }
+
+// NewLane returns a lane detector for cfg and lc, or their errors.
+func NewLane(cfg Config, lc LaneConfig) (*Lane, error) {
+	if err := lc.Validate(); err != nil {
+		return nil, err
+	}
+	c, err := NewClassical(cfg)
+	if err != nil {
+		return nil, err
+	}
+	return &Lane{c: c, lc: lc}, nil
+}
+
+// Close releases the detector's images.
+func (ln *Lane) Close() error { return ln.c.Close() }
+
+// Reset forgets the learned width and the last boundaries (a new clip).
+func (ln *Lane) Reset() {
+	clear(ln.width)
+	ln.prevOK, ln.wlineOK = false, false
+}
+
+func laneNotFound(reason string) Detection {
+	return Detection{Method: MethodLane, Reason: reason}
+}
+
+// Detect measures the lane in img (as Classical.Detect). It does not
+// retain img.
+func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
+	c := ln.c
+	fr, why := c.load(img)
+	if why != "" {
+		return laneNotFound(why)
+	}
+	l, byBand, wantLight, wantDark, why := c.extract(fr)
+	if why != "" {
+		return laneNotFound(why)
+	}
+	if k := [3]int{fr.ww, fr.wh, l.n}; k != ln.key || len(ln.width) != l.n {
+		ln.key, ln.width, ln.prevOK, ln.wlineOK = k, make([]float64, l.n), false, false
+		ln.turn = [2][]float64{make([]float64, l.n), make([]float64, l.n)}
+	}
+	yRefIn := c.cfg.RefRow * fr.inH
+	yRefW := fr.toWorkY(yRefIn)
+	c.rng = frameSeed
+	var pols []bool
+	if wantLight {
+		pols = append(pols, false)
+	}
+	if wantDark {
+		pols = append(pols, true)
+	}
+
+	var left, right *fitResult
+	gated := false
+	if hint.Valid && ln.prevOK && ln.learned() {
+		left, right = ln.gatedSides(fr, l, byBand, pols, hint, yRefW)
+		gated = left != nil || right != nil
+	}
+	if !gated {
+		left, right = ln.freeSides(fr, l, byBand, pols, hint, yRefW)
+	}
+	if left == nil && right == nil {
+		ln.prevOK = ln.prevOK && hint.Valid
+		return laneNotFound("no lane boundary")
+	}
+	both := left != nil && right != nil
+	if both {
+		ln.learn(l, left, right)
+	}
+	cr, ok := ln.centre(l, left, right)
+	if !ok {
+		return laneNotFound("one boundary and no lane width learned there yet")
+	}
+	d := c.report(fr, l, &cr, false, gated, 0, hint, yRefIn, yRefW)
+	d.Method = MethodLane
+	m := &LaneMeasure{BothSeen: both}
+	if left != nil {
+		m.Left = curvePoints(fr, l, left)
+	}
+	if right != nil {
+		m.Right = curvePoints(fr, l, right)
+	}
+	if both {
+		m.WidthPx = (right.centre.x(yRefW) - left.centre.x(yRefW)) / fr.sx
+	} else {
+		seen, s := left, 0
+		if seen == nil {
+			seen, s = right, 1
+		}
+		m.WidthPx = ln.across(l, bandOf(l, yRefW), s, seen.centre.slope(yRefW)) / fr.sx
+		d.Confidence *= ln.lc.OneSideFactor
+		d.Reason = "one boundary: centre from the learned lane width"
+	}
+	d.Lane = m
+	ln.remember(fr, l, &d, left, right, yRefW)
+	return d
+}
+
+// usable: long enough, and not a line of clipped pixels.
+func (ln *Lane) usable(r *fitResult, l bandLayout) bool {
+	return ln.c.acceptable(r, l) && r.satShare <= ln.lc.MaxSaturated
+}
+
+// keep copies r (whose memory belongs to a fitter slot) into dst.
+func keep(dst, r *fitResult) *fitResult {
+	b := dst.bands[:0]
+	*dst = *r
+	dst.bands = append(b, r.bands...)
+	return dst
+}
+
+// best fits one line per polarity with sel and returns the better usable
+// one, copied into dst, or nil.
+func (ln *Lane) best(fr frameGeom, l bandLayout, byBand [][2]int, pols []bool, sel selector, dst *fitResult) *fitResult {
+	var found *fitResult
+	for i, dark := range pols {
+		sel.dark = dark
+		r := ln.c.ransac(l, fr.ww, byBand, sel, 4+i)
+		if ln.usable(r, l) && (found == nil || r.score > found.score) {
+			found = r
+		}
+	}
+	if found == nil {
+		return nil
+	}
+	return keep(dst, found)
+}
+
+// gatedSides fits each boundary inside the gate of its own prediction.
+func (ln *Lane) gatedSides(fr frameGeom, l bandLayout, byBand [][2]int, pols []bool, hint Hint, yRefW float64) (left, right *fitResult) {
+	var out [2]*fitResult
+	// The centre's predicted move since the last detection, in working
+	// pixels: a shift at the reference row and a change of slope.
+	shift := (hint.OffsetPx - ln.prevCentre.off) * fr.sx
+	dSlope := -(math.Tan(hint.HeadingDeg*math.Pi/180) - math.Tan(ln.prevCentre.head*math.Pi/180)) * fr.sx / fr.sy
+	so := math.Hypot(math.Max(hint.OffsetSigma, 0.02*fr.inW), 0.01*fr.inW) * fr.sx
+	sh := math.Max(hint.HeadingSigma, 2) * math.Pi / 180
+	th := math.Tan(hint.HeadingDeg * math.Pi / 180)
+	sec2 := 1 + th*th
+	for s := 0; s < 2; s++ {
+		// Each boundary's gate follows its own last curve (a boundary off
+		// the image centre bends with the lens), moved as the centre is.
+		prev := ln.prevCurve[s]
+		for i := range ln.c.cands {
+			cd := &ln.c.cands[i]
+			pred := prev.x(cd.y) + shift + dSlope*(cd.y-yRefW)
+			dy := (cd.y - yRefW) / fr.sy * fr.sx
+			cd.gated = math.Abs(cd.x-pred) <= 3*math.Hypot(so, sh*sec2*dy)+0.5*cd.w
+		}
+		out[s] = ln.best(fr, l, byBand, pols, selector{gatedOnly: true}, &ln.sides[s])
+	}
+	left, right = out[0], out[1]
+	if (left == nil) != (right == nil) {
+		// One gate came up empty: the other boundary may have moved more
+		// than its gate allows (it bends away in a curve). Take the best
+		// line off the one found if the two make a lane, on the right side.
+		seen := left
+		if seen == nil {
+			seen = right
+		}
+		ln.markTaken(fr, seen)
+		if r := ln.best(fr, l, byBand, pols, selector{freeOnly: true}, &ln.fits[0]); r != nil {
+			if seen == left && ln.pair(l, left, r) {
+				right = r
+			} else if seen == right && ln.pair(l, r, right) {
+				left = r
+			}
+		}
+	}
+	if left != nil && right != nil && !ln.pair(l, left, right) {
+		// Both gates hold a line but together they are no lane: keep the
+		// better one and infer the centre from it.
+		if left.score >= right.score {
+			right = nil
+		} else {
+			left = nil
+		}
+	}
+	return left, right
+}
+
+// freeSides finds up to three lines in turn and keeps the best pair that
+// can be a lane; with no such pair, the best line alone when the tracked
+// lane says which side it is.
+func (ln *Lane) freeSides(fr frameGeom, l bandLayout, byBand [][2]int, pols []bool, hint Hint, yRefW float64) (left, right *fitResult) {
+	c := ln.c
+	for i := range c.cands {
+		c.cands[i].taken, c.cands[i].gated = false, false
+	}
+	n := 0
+	for n < len(ln.fits) {
+		r := ln.best(fr, l, byBand, pols, selector{freeOnly: true}, &ln.fits[n])
+		if r == nil {
+			break
+		}
+		ln.markTaken(fr, r)
+		n++
+	}
+	bestScore := 0.0
+	for i := 0; i < n; i++ {
+		for j := i + 1; j < n; j++ {
+			a, b := &ln.fits[i], &ln.fits[j]
+			if a.centre.x(yRefW) > b.centre.x(yRefW) {
+				a, b = b, a
+			}
+			if s := a.score + b.score; s > bestScore && ln.pair(l, a, b) {
+				bestScore, left, right = s, a, b
+			}
+		}
+	}
+	if left != nil || n == 0 || !hint.Valid || !ln.prevOK || !ln.learned() {
+		return left, right
+	}
+	// One line: which side, if either, does the tracked lane put there?
+	r := &ln.fits[0]
+	x := fr.toInX(r.centre.x(yRefW)) - fr.inW/2
+	tol := 3 * math.Hypot(math.Max(hint.OffsetSigma, 0.02*fr.inW), 0.01*fr.inW)
+	dl := math.Abs(x - (hint.OffsetPx + ln.prevSide[0].off - ln.prevCentre.off))
+	dr := math.Abs(x - (hint.OffsetPx + ln.prevSide[1].off - ln.prevCentre.off))
+	switch {
+	case dl <= tol && dl < dr:
+		return r, nil
+	case dr <= tol:
+		return nil, r
+	}
+	return nil, nil
+}
+
+// markTaken marks the candidates on or next to line r as taken.
+func (ln *Lane) markTaken(fr frameGeom, r *fitResult) {
+	for i := range ln.c.cands {
+		cd := &ln.c.cands[i]
+		if math.Abs(cd.x-r.centre.x(cd.y)) <= math.Max(1.5*r.width.x(cd.y), 2*tolerance(cd, fr.ww)) {
+			cd.taken = true
+		}
+	}
+}
+
+// pair reports whether a (left) and b (right) can be a lane's two
+// boundaries: they overlap over at least a fifth of the ROI, b lies right
+// of a wherever both are, by at least four times the wider line's width
+// (a lane is much wider than its lines; this holds at every distance, as
+// both shrink alike with perspective), and by the learned width (within a
+// factor 1.3) where it is known.
+func (ln *Lane) pair(l bandLayout, a, b *fitResult) bool {
+	lo, hi := math.Max(a.yLo, b.yLo), math.Min(a.yHi, b.yHi)
+	if hi-lo < 0.2*float64(l.y1-l.y0) {
+		return false
+	}
+	// Perspective: on a floor seen from above the horizon, a lane looks
+	// narrower the farther it is (higher in the image). Two rack uprights
+	// or wall edges above the horizon do not.
+	if b.centre.x(lo)-a.centre.x(lo) > 1.05*(b.centre.x(hi)-a.centre.x(hi)) {
+		return false
+	}
+	for k := 0; k < l.n; k++ {
+		y := l.centre(k)
+		if y < lo || y > hi {
+			continue
+		}
+		sep := b.centre.x(y) - a.centre.x(y)
+		if sep < 4*math.Max(math.Max(a.width.x(y), b.width.x(y)), 1) {
+			return false
+		}
+		perp := sep * math.Cos(math.Atan((a.centre.slope(y)+b.centre.slope(y))/2))
+		if w := ln.width[k]; w > 0 && (perp > 1.3*w || perp < w/1.3) {
+			return false
+		}
+	}
+	return true
+}
+
+// learned reports whether a width is known in at least a fifth of the
+// bands.
+func (ln *Lane) learned() bool {
+	n := 0
+	for _, w := range ln.width {
+		if w > 0 {
+			n++
+		}
+	}
+	return n > 0 && 5*n >= len(ln.width)
+}
+
+// covers reports whether y lies on the fitted stretch of r, give or take
+// a band.
+func covers(r *fitResult, l bandLayout, y float64) bool {
+	st := float64(l.step)
+	return r != nil && y >= r.yLo-st && y <= r.yHi+st
+}
+
+// learn updates the width of every band where both boundaries were fitted.
+func (ln *Lane) learn(l bandLayout, a, b *fitResult) {
+	for k := 0; k < l.n; k++ {
+		y := l.centre(k)
+		if !covers(a, l, y) || !covers(b, l, y) {
+			continue
+		}
+		sa, sb := math.Atan(a.centre.slope(y)), math.Atan(b.centre.slope(y))
+		ac := math.Atan((a.centre.slope(y) + b.centre.slope(y)) / 2)
+		w := (b.centre.x(y) - a.centre.x(y)) * math.Cos(ac)
+		if ln.width[k] == 0 {
+			ln.width[k], ln.turn[0][k], ln.turn[1][k] = w, sa-ac, sb-ac
+		} else {
+			r := ln.lc.LearnRate
+			ln.width[k] += r * (w - ln.width[k])
+			ln.turn[0][k] += r * (sa - ac - ln.turn[0][k])
+			ln.turn[1][k] += r * (sb - ac - ln.turn[1][k])
+		}
+	}
+	// the straight line through the learned widths, by least squares
+	var n, sy, sw, syy, syw float64
+	for k, w := range ln.width {
+		if w > 0 {
+			y := l.centre(k)
+			n++
+			sy += y
+			sw += w
+			syy += y * y
+			syw += y * w
+		}
+	}
+	ln.wlineOK = false
+	if det := n*syy - sy*sy; n >= 5 && det > 0 {
+		b := (n*syw - sy*sw) / det
+		ln.wline = curve{a: (sw - b*sy) / n, b: b, scale: 1}
+		ln.wlineOK = true
+	}
+}
+
+// across is the horizontal lane width at band k, seen from boundary s
+// whose image slope (dx/dy) there is slope: the learned width across the
+// lane over the cosine of the centre's angle, which is the boundary's
+// angle less the learned turn between them. Bands without a learned width
+// use the straight line through the learned widths and the nearest
+// band's turn. 0 when nothing is known.
+func (ln *Lane) across(l bandLayout, k, s int, slope float64) float64 {
+	w, ac := ln.perp(l, k, s, slope)
+	return w / math.Max(math.Cos(ac), 0.2)
+}
+
+// perp is the learned width across the lane at band k and the centre's
+// image angle there, seen from boundary s with slope dx/dy (see across).
+func (ln *Lane) perp(l bandLayout, k, s int, slope float64) (w, ac float64) {
+	w, kt := ln.width[k], k
+	if w == 0 {
+		if !ln.wlineOK {
+			return 0, 0
+		}
+		w = math.Max(ln.wline.x(l.centre(k)), 0)
+		kt = -1
+		for j, v := range ln.width {
+			if v > 0 && (kt < 0 || abs(j-k) < abs(kt-k)) {
+				kt = j
+			}
+		}
+		if kt < 0 {
+			return 0, 0
+		}
+	}
+	return w, math.Atan(slope) - ln.turn[s][kt]
+}
+
+func abs(i int) int {
+	if i < 0 {
+		return -i
+	}
+	return i
+}
+
+// bandOf is the band whose rows hold y (clamped to the layout).
+func bandOf(l bandLayout, y float64) int {
+	return min(max(int((float64(l.y1)-y)/float64(l.step)), 0), l.n-1)
+}
+
+// centre fits the lane's centre: midway between the boundaries on the
+// bands both cover, half the learned width from the one boundary where
+// only one does (at half weight). The result carries the boundaries'
+// summaries, so that the stripe detector's confidence factors apply.
+func (ln *Lane) centre(l bandLayout, a, b *fitResult) (fitResult, bool) {
+	var A [3][3]float64
+	var B [3]float64
+	y0, sc := float64(l.y1), float64(l.y1-l.y0)
+	r := fitResult{ok: true, yLo: math.Inf(1), yHi: math.Inf(-1)}
+	n := 0
+	for k := 0; k < l.n; k++ {
+		y := l.centre(k)
+		inA, inB := covers(a, l, y), covers(b, l, y)
+		var x, wt float64
+		switch {
+		case inA && inB:
+			x, wt = (a.centre.x(y)+b.centre.x(y))/2, 1
+		case inA && ln.across(l, k, 0, a.centre.slope(y)) > 0:
+			x, wt = a.centre.x(y)+ln.across(l, k, 0, a.centre.slope(y))/2, 0.5
+		case inB && ln.across(l, k, 1, b.centre.slope(y)) > 0:
+			x, wt = b.centre.x(y)-ln.across(l, k, 1, b.centre.slope(y))/2, 0.5
+		default:
+			continue
+		}
+		t := (y - y0) / sc
+		v := [3]float64{1, t, t * t}
+		for i := 0; i < 3; i++ {
+			for j := 0; j < 3; j++ {
+				A[i][j] += wt * v[i] * v[j]
+			}
+			B[i] += wt * v[i] * x
+		}
+		r.yLo, r.yHi = math.Min(r.yLo, y), math.Max(r.yHi, y)
+		n++
+	}
+	if n < 5 {
+		return r, false
+	}
+	A[2][2] += 1e-6 * A[0][0]
+	sol, ok := solve3(A, B)
+	if !ok {
+		return r, false
+	}
+	r.centre = curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
+	if !plausible(r.centre, l) {
+		return r, false
+	}
+	// Summaries: the support and quality of the boundaries used.
+	r.inliers = n
+	r.meanSNR, r.rms = math.Inf(1), 0
+	var parts []*fitResult
+	for _, p := range []*fitResult{a, b} {
+		if p != nil {
+			parts = append(parts, p)
+		}
+	}
+	r.width = curve{y0: y0, scale: sc}
+	share := 0.0
+	for _, p := range parts {
+		r.score += p.score
+		r.rms = math.Max(r.rms, p.rms)
+		r.meanSNR = math.Min(r.meanSNR, p.meanSNR)
+		r.satShare = math.Max(r.satShare, p.satShare)
+		k := 1 / float64(len(parts))
+		r.width.a += k * p.width.a
+		r.width.b += k * p.width.b
+		r.width.c += k * p.width.c
+		// the boundary's support along its own stretch
+		share += k * float64(p.inliers) / ((p.yHi-p.yLo)/float64(l.step) + 1)
+	}
+	// The stripe detector's "gaps along the line" factor counts inliers
+	// over the stretch: carry the boundaries' own share of support.
+	r.inliers = int(math.Round(share * ((r.yHi-r.yLo)/float64(l.step) + 1)))
+	return r, true
+}
+
+// curvePoints samples a fitted line over its stretch, near end first, in
+// input pixels.
+func curvePoints(fr frameGeom, l bandLayout, r *fitResult) []Point {
+	st := float64(l.step)
+	yBot, yTop := math.Min(r.yHi+st/2, float64(l.y1)), math.Max(r.yLo-st/2, float64(l.y0))
+	pts := make([]Point, 16)
+	for i := range pts {
+		y := yBot + (yTop-yBot)*float64(i)/float64(len(pts)-1)
+		pts[i] = Point{X: fr.toInX(r.centre.x(y)), Y: fr.toInY(y)}
+	}
+	return pts
+}
+
+// remember keeps the boundaries' and the centre's place at the reference
+// row for the next frame's gates; an unseen boundary is put at the
+// learned width from the seen one.
+func (ln *Lane) remember(fr frameGeom, l bandLayout, d *Detection, a, b *fitResult, yRefW float64) {
+	at := func(x, slope float64) sideAt {
+		return sideAt{off: fr.toInX(x) - fr.inW/2, head: math.Atan(-slope*fr.sy/fr.sx) * 180 / math.Pi}
+	}
+	// the other boundary, w(y) ≈ w + dw·(y − yRef) away from the seen
+	// one, with w and its slope dw from the learned width at the
+	// reference row
+	var w, dw float64
+	if a == nil || b == nil {
+		seen, s := a, 0
+		if seen == nil {
+			seen, s = b, 1
+		}
+		k := bandOf(l, yRefW)
+		k0, k1 := min(k+4, l.n-1), max(k-4, 0) // k0 lower in the image
+		w = ln.across(l, k, s, seen.centre.slope(yRefW))
+		w0 := ln.across(l, k0, s, seen.centre.slope(l.centre(k0)))
+		w1 := ln.across(l, k1, s, seen.centre.slope(l.centre(k1)))
+		if w0 > 0 && w1 > 0 && k0 != k1 {
+			dw = (w0 - w1) / (l.centre(k0) - l.centre(k1))
+		}
+	}
+	beside := func(q curve, sign float64) curve {
+		q.a += sign * (w + dw*(q.y0-yRefW))
+		q.b += sign * dw * q.scale
+		return q
+	}
+	switch {
+	case a != nil && b != nil:
+		ln.prevCurve = [2]curve{a.centre, b.centre}
+	case a != nil:
+		ln.prevCurve = [2]curve{a.centre, beside(a.centre, 1)}
+	default:
+		ln.prevCurve = [2]curve{beside(b.centre, -1), b.centre}
+	}
+	for s, q := range ln.prevCurve {
+		ln.prevSide[s] = at(q.x(yRefW), q.slope(yRefW))
+	}
+	ln.prevCentre = sideAt{off: d.OffsetPx, head: d.HeadingDeg}
+	ln.prevOK = true
+}

@@ -1,0 +1,320 @@
+package vision
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"testing"
+
+	"gocv.io/x/gocv"
+
+	"github.com/hewline/hewline/capture/synth"
+	"github.com/hewline/hewline/guidance"
+)
+
+// laneScore is how the lane detector, with the tracker's prediction as
+// its hint (as in the pipeline), did on a rendered clip. Frames are judged
+// with the same TuSimple rule as the stripe detector (matches), on the
+// lane's centre.
+type laneScore struct {
+	visible, correct int
+	hidden           int
+	// falseTrack: frames where the tracker claims tracking and either no
+	// centre is visible or the claimed offset is more than 30 px off
+	// (guidance/score's false-track rule).
+	falseTrack int
+	// confidentHidden: frames with no lane visible where the detector
+	// still reports a line with confidence ≥ 0.5 (the stripe tests' rule);
+	// retracked: such frames tracked after the alarm went on (the tracker
+	// took the distractor up again), which coasting cannot explain.
+	confidentHidden, retracked int
+	// oneSide counts frames found from one boundary, and their mean
+	// confidence; twoSide the same with both.
+	oneSide, twoSide         int
+	oneSideConf, twoSideConf float64
+}
+
+func (s laneScore) recall() float64 { return float64(s.correct) / math.Max(1, float64(s.visible)) }
+
+// detector is what scoreTracked runs: a *Lane or a *Classical.
+type detector interface {
+	Detect(img gocv.Mat, hint Hint) Detection
+	Close() error
+}
+
+// scoreLane renders frames [0, frames) of sc (all when frames is 0), runs
+// every step-th through the lane detector and the tracker, and scores them.
+func scoreLane(t *testing.T, sc synth.Scenario, frames, step int) laneScore {
+	t.Helper()
+	det, err := NewLane(DefaultConfig(), DefaultLaneConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	return scoreTracked(t, sc, frames, step, det)
+}
+
+// scoreTracked is scoreLane with any detector (closed at the end).
+func scoreTracked(t *testing.T, sc synth.Scenario, frames, step int, det detector) laneScore {
+	t.Helper()
+	defer det.Close()
+	if frames > 0 && frames < sc.Frames {
+		sc.Frames = frames
+	}
+	r, err := synth.New(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	tr, err := guidance.NewTracker(guidance.DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	img := gocv.NewMat()
+	defer img.Close()
+	var s laneScore
+	alarmed := false
+	for i := 0; ; i++ {
+		fi, err := r.Read(&img)
+		if errors.Is(err, io.EOF) {
+			break
+		} else if err != nil {
+			t.Fatal(err)
+		}
+		if i%step != 0 {
+			continue
+		}
+		tf := r.Truth()
+		var h Hint
+		if off, head, so, sh, ok := tr.Predict(fi.T); ok {
+			h = Hint{Valid: true, OffsetPx: off, HeadingDeg: head, OffsetSigma: so, HeadingSigma: sh}
+		}
+		d := det.Detect(img, h)
+		est := tr.Update(fi.T, guidance.Measurement{Valid: d.Found, OffsetPx: d.OffsetPx, HeadingDeg: d.HeadingDeg, Confidence: d.Confidence})
+		if d.Found && d.Lane != nil {
+			if d.Lane.BothSeen {
+				s.twoSide++
+				s.twoSideConf += d.Confidence
+			} else {
+				s.oneSide++
+				s.oneSideConf += d.Confidence
+			}
+		}
+		if tf.Visible {
+			s.visible++
+			if matches(d, tf, sc.Width, sc.Height) {
+				s.correct++
+			}
+			if est.Tracking && math.Abs(est.OffsetPx-tf.OffsetPx) > 30 {
+				s.falseTrack++
+			}
+			alarmed = false
+		} else {
+			s.hidden++
+			if est.Tracking {
+				s.falseTrack++
+				if alarmed {
+					s.retracked++
+				}
+			}
+			if d.Found && d.Confidence >= 0.5 {
+				s.confidentHidden++
+			}
+			alarmed = alarmed || est.Alarm
+		}
+	}
+	if s.oneSide > 0 {
+		s.oneSideConf /= float64(s.oneSide)
+	}
+	if s.twoSide > 0 {
+		s.twoSideConf /= float64(s.twoSide)
+	}
+	return s
+}
+
+// TestLaneScenes runs the lane detector with the tracker on 2 s (60
+// frames, every second one used) of each rendered lane scene, from where
+// its condition is, keyed by scene. The whole clips are scored by
+// TestLaneSurvey and `hewline demo` (README). Recall is the stripe rule
+// on the lane's centre (matches); a false track is tracking claimed with
+// no lane visible or more than 30 px off (guidance/score's rule).
+func TestLaneScenes(t *testing.T) {
+	for _, tc := range []struct {
+		scene     string
+		startM    float64 // where the cart starts (0: the scene's own start)
+		minRecall float64
+		hidden    bool // the window holds frames with no boundary at all
+	}{
+		{scene: "lane-straight", minRecall: 0.98},
+		// The S-bend: where the right line leaves the view the centre is
+		// inferred from the left one, and far rows of a 2 m bend are off
+		// by more than the tolerance: below the 0.98 target (issue 9).
+		{scene: "lane-s-curve", minRecall: 0.5},
+		{scene: "lane-one-side", startM: 2, minRecall: 0.98}, // the left line worn away from 3.5 m
+		{scene: "lane-mixed", startM: 4, minRecall: 0.98},
+		{scene: "lane-fisheye", minRecall: 0.98},
+		{scene: "lane-reflections", startM: 6, minRecall: 0.98, hidden: true}, // both lines worn away 7–8.5 m
+	} {
+		t.Run(tc.scene, func(t *testing.T) {
+			s := laneWindow(t, tc.scene, tc.startM)
+			t.Logf("%s: recall %.3f (%d/%d), false tracks %d, hidden %d, both seen %d (conf %.2f), one seen %d (conf %.2f)",
+				tc.scene, s.recall(), s.correct, s.visible, s.falseTrack, s.hidden, s.twoSide, s.twoSideConf, s.oneSide, s.oneSideConf)
+			if s.recall() < tc.minRecall {
+				t.Errorf("recall %.3f < %.2f", s.recall(), tc.minRecall)
+			}
+			// Confident detections without a visible lane are logged, not
+			// failed: where the near rows are bare, the lines farther on
+			// are still found, and the tracker must not follow them
+			// (false tracks, the scoring rule) nor pick them up again.
+			t.Logf("%d confident detections with no lane visible, %d tracked after the alarm", s.confidentHidden, s.retracked)
+			if s.falseTrack > 0 || s.retracked > 0 {
+				t.Errorf("%d false-track frames, %d tracked after the alarm", s.falseTrack, s.retracked)
+			}
+			if tc.hidden && s.hidden == 0 {
+				t.Errorf("no frame without the lane in the window")
+			}
+		})
+	}
+}
+
+var laneCache = map[string]laneScore{}
+
+// laneWindow scores 2 s (60 frames, every second one) of a lane scene
+// from startM (0: its own start), once per test run.
+func laneWindow(t *testing.T, scene string, startM float64) laneScore {
+	t.Helper()
+	key := fmt.Sprintf("%s@%g", scene, startM)
+	if s, ok := laneCache[key]; ok {
+		return s
+	}
+	sc := lookup(t, scene)
+	if startM > 0 {
+		sc.Motion.StartM = startM
+	}
+	s := scoreLane(t, sc, 60, 2)
+	laneCache[key] = s
+	return s
+}
+
+// TestLaneOneSideConfidence: with one line worn away the centre is still
+// found, from the other line and the learned width, with a lower
+// confidence than with both.
+func TestLaneOneSideConfidence(t *testing.T) {
+	s := laneWindow(t, "lane-one-side", 2)
+	if s.oneSide < 5 || s.twoSide < 5 {
+		t.Fatalf("%d frames from one line, %d from both: the window should hold both", s.oneSide, s.twoSide)
+	}
+	if s.oneSideConf > 0.7*s.twoSideConf {
+		t.Errorf("mean confidence from one line %.2f, from both %.2f: want at most 0.7×", s.oneSideConf, s.twoSideConf)
+	}
+}
+
+// TestStripeReflections: in stripe mode, the mirrored ceiling lamps on
+// glossy epoxy are not tracked where the tape is missing (5.0–6.6 m), and
+// the tape is followed beside them.
+func TestStripeReflections(t *testing.T) {
+	sc := lookup(t, "reflections")
+	sc.Motion.StartM = 4.2
+	det, err := NewClassical(DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := scoreTracked(t, sc, 90, 2, det)
+	t.Logf("reflections: recall %.3f (%d/%d), false tracks %d (coasting into the gap included), confident detections without tape %d, tracked again after the alarm %d, hidden %d",
+		s.recall(), s.correct, s.visible, s.falseTrack, s.confidentHidden, s.retracked, s.hidden)
+	if s.hidden == 0 {
+		t.Fatal("no frame without the tape in the window")
+	}
+	if s.confidentHidden > 0 || s.retracked > 0 {
+		t.Errorf("streaks taken for tape: %d confident detections, %d frames tracked after the alarm", s.confidentHidden, s.retracked)
+	}
+	if s.recall() < 0.98 {
+		t.Errorf("recall %.3f < 0.98", s.recall())
+	}
+}
+
+// TestLaneSurvey scores the whole of every lane scene and the stripe
+// reflections scene; minutes, so only with HEWLINE_SURVEY=1.
+func TestLaneSurvey(t *testing.T) {
+	if os.Getenv("HEWLINE_SURVEY") == "" {
+		t.Skip("set HEWLINE_SURVEY=1 to score the whole lane scenes")
+	}
+	for _, name := range synth.Names() {
+		sc := lookup(t, name)
+		if sc.Follow != synth.FollowLane {
+			continue
+		}
+		s := scoreLane(t, sc, 0, 1)
+		t.Logf("%-17s recall %.3f (%d/%d) false tracks %d hidden %d both %d (%.2f) one %d (%.2f)",
+			name, s.recall(), s.correct, s.visible, s.falseTrack, s.hidden, s.twoSide, s.twoSideConf, s.oneSide, s.oneSideConf)
+	}
+}
+
+// renderFrame renders frame i of a built-in scene.
+func renderFrame(b *testing.B, name string, i int) gocv.Mat {
+	sc, err := synth.Lookup(name)
+	if err != nil {
+		b.Fatal(err)
+	}
+	sc.Frames = i + 1
+	r, err := synth.New(sc)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer r.Close()
+	img := gocv.NewMat()
+	for k := 0; k <= i; k++ {
+		if _, err := r.Read(&img); err != nil {
+			img.Close()
+			b.Fatal(err)
+		}
+	}
+	return img
+}
+
+// hintFrom is the hint a tracker holding d would give.
+func hintFrom(d Detection) Hint {
+	return Hint{Valid: true, OffsetPx: d.OffsetPx, HeadingDeg: d.HeadingDeg, OffsetSigma: 4, HeadingSigma: 2}
+}
+
+// BenchmarkModeStripe640 and BenchmarkModeLane640 compare the per-frame
+// cost of the two modes while tracking (hint valid), each on a rendered
+// 640×480 frame of its own demo scene (weave, lane-straight). Issue 9's
+// target: lane ≤ 1.5× stripe. Run with GOMAXPROCS=1 for one core.
+func BenchmarkModeStripe640(b *testing.B) {
+	img := renderFrame(b, "weave", 30)
+	defer img.Close()
+	det, err := NewClassical(DefaultConfig())
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer det.Close()
+	h := hintFrom(det.Detect(img, Hint{}))
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if d := det.Detect(img, h); !d.Found {
+			b.Fatal(d.Reason)
+		}
+	}
+}
+
+func BenchmarkModeLane640(b *testing.B) {
+	img := renderFrame(b, "lane-straight", 30)
+	defer img.Close()
+	det, err := NewLane(DefaultConfig(), DefaultLaneConfig())
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer det.Close()
+	h := hintFrom(det.Detect(img, Hint{}))
+	det.Detect(img, h)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if d := det.Detect(img, h); !d.Found || d.Lane == nil || !d.Lane.BothSeen {
+			b.Fatal(d.Reason)
+		}
+	}
+}

@@ -151,7 +151,7 @@ func truthPath(flag, clip string) string {
 func replayFlags(fs *flag.FlagSet) *replayOptions {
 	o := &replayOptions{vision: vision.DefaultConfig()}
 	def := guidance.DefaultConfig()
-	fs.StringVar(&o.follow, "follow", "stripe", "what to follow: `stripe` (lane mode is not in this version)")
+	fs.StringVar(&o.follow, "follow", "stripe", "what to follow: `stripe` (one line) or lane (the centre between two boundary lines); demo scenes carry their own")
 	fs.DurationVar(new(time.Duration), "failsafe", def.FailSafeAfter, "raise the fail-safe alarm after this long without a trusted measurement")
 	fs.DurationVar(new(time.Duration), "reacquire", def.ReacquireFor, "see the line this long before guidance resumes after a loss")
 	fs.String("polarity", "auto", "stripe lighter or darker than the floor: auto, light or dark")

@@ -253,6 +253,10 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		fmt.Fprintf(stdout, "recording:   %s (rotating every %d MB or %v; stops, never the run, when the disk fills)\n", *recDir, *recSize, *recTime)
 	}
 
+	follow, err := followMode(o.follow)
+	if err != nil {
+		return err
+	}
 	logPath := *track
 	if logPath == "" {
 		logPath = "run-" + time.Now().Format("20060102-150405") + ".track.ndjson"
@@ -262,7 +266,7 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 	lw, err := tracklog.NewRotatingWriter(logPath, tracklog.Header{
 		Tool: "hewline " + version, Source: info.Name, Kind: info.Kind, Width: info.Size.X, Height: info.Size.Y, FPS: info.FPS,
-		Follow: "stripe", Started: time.Now().UTC().Format(time.RFC3339),
+		Follow: follow, Started: time.Now().UTC().Format(time.RFC3339),
 		Settings: map[string]any{"fail_safe_after_s": tcfg.FailSafeAfter.Seconds(), "reacquire_for_s": tcfg.ReacquireFor.Seconds(),
 			"tracker": tcfg.String(), "detector": o.vision, "calibration": o.calib, "alarm_channels": player.Channels(true), "live": true},
 	}, tracklog.Rotation{MaxBytes: *logRotMB << 20, MaxSpan: *logRot})
@@ -276,7 +280,11 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		return err
 	}
 	defer closeDet()
-	fmt.Fprintf(stdout, "detector:    classical, CNN fallback %s\n", modelName(o))
+	if follow == followLane {
+		fmt.Fprintln(stdout, "detector:    lane (two boundary lines; the centre is followed)")
+	} else {
+		fmt.Fprintf(stdout, "detector:    classical, CNN fallback %s\n", modelName(o))
+	}
 	tr, err := guidance.NewTracker(tcfg)
 	if err != nil {
 		return err

@@ -63,10 +63,28 @@ type replayOptions struct {
 // newDetector builds the detector stage: the classical detector, fused with
 // the CNN fallback unless it is switched off. The returned close releases
 // both.
+//
+// In lane mode (-follow lane) the primary detector is vision.Lane, which
+// reports the lane's centre and both boundaries; the CNN fallback knows
+// stripes only and is refused there.
 func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 	if o.baseline {
 		p := newPlainDetector(o.baselineDark)
 		return &pipeline.Fused{Primary: p}, func() { p.Close() }, nil
+	}
+	mode, err := followMode(o.follow)
+	if err != nil {
+		return nil, nil, err
+	}
+	if mode == followLane {
+		if o.cnn || o.cnnCheck > 0 {
+			return nil, nil, usagef("-cnn and -cnn-check work in stripe mode only (the shipped model knows one stripe, not a lane)")
+		}
+		ln, err := vision.NewLane(o.vision, vision.DefaultLaneConfig())
+		if err != nil {
+			return nil, nil, err
+		}
+		return &pipeline.Fused{Primary: ln}, func() { ln.Close() }, nil
 	}
 	cl, err := vision.NewClassical(o.vision)
 	if err != nil {
@@ -100,6 +118,24 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 	}
 	f.Fallback = nn
 	return f, func() { cl.Close(); nn.Close() }, nil
+}
+
+// Follow modes: one stripe, or the centre of a lane between two lines.
+const (
+	followStripe = "stripe"
+	followLane   = "lane"
+)
+
+// followMode reads -follow (or the site's follow:): stripe (also when
+// empty) or lane, any case.
+func followMode(s string) (string, error) {
+	switch strings.ToLower(strings.TrimSpace(s)) {
+	case "", followStripe:
+		return followStripe, nil
+	case followLane:
+		return followLane, nil
+	}
+	return "", usagef("-follow %q: want stripe or lane", s)
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {
@@ -160,8 +196,9 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 		}
 	}
 
-	if o.follow != "" && o.follow != "stripe" {
-		return nil, usagef("--follow %s: only stripe is available in this version", o.follow)
+	mode, err := followMode(o.follow)
+	if err != nil {
+		return nil, err
 	}
 	det, closeDet, err := o.newDetector()
 	if err != nil {
@@ -197,7 +234,7 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 	defer lf.Close()
 	lw, err := tracklog.NewWriter(lf, tracklog.Header{
 		Tool: "hewline " + version, Source: info.Name, Kind: info.Kind,
-		Width: info.Size.X, Height: info.Size.Y, FPS: info.FPS, Follow: "stripe",
+		Width: info.Size.X, Height: info.Size.Y, FPS: info.FPS, Follow: mode,
 		Started: time.Now().UTC().Format(time.RFC3339),
 		Settings: map[string]any{
 			"fail_safe_after_s": tcfg.FailSafeAfter.Seconds(),
@@ -350,7 +387,15 @@ func (f *floorMapper) Floor(d vision.Detection) (pipeline.FloorValues, bool) {
 	if err != nil || !fm.OK {
 		return pipeline.FloorValues{}, false
 	}
-	return pipeline.FloorValues{OffsetMM: float64(fm.OffsetMM), HeadingDeg: float64(fm.HeadingDeg), WidthMM: float64(fm.WidthMM)}, true
+	fv := pipeline.FloorValues{OffsetMM: float64(fm.OffsetMM), HeadingDeg: float64(fm.HeadingDeg), WidthMM: float64(fm.WidthMM)}
+	if d.Lane != nil && d.Lane.WidthPx > 0 {
+		// The lane's width is measured like the stripe's, across the
+		// centreline at the reference row.
+		if lm, err := f.m.Measure(f.pts, d.RefRow, d.Lane.WidthPx, 0); err == nil && lm.OK {
+			fv.LaneWidthMM, fv.LaneOK = float64(lm.WidthMM), true
+		}
+	}
+	return fv, true
 }
 
 // newWAVPlayer makes an audio player whose one channel is a WAV file, a

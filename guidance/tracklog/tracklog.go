@@ -62,6 +62,16 @@ type Record struct {
 	OffsetMM        *float64 `json:"offset_mm,omitempty"`
 	HeadingFloorDeg *float64 `json:"heading_floor_deg,omitempty"`
 	WidthMM         *float64 `json:"width_mm,omitempty"`
+	// Lane mode (Header.Follow "lane"): Points, OffsetPx and HeadingDeg
+	// are the lane's centre; LeftPoints and RightPoints are the boundary
+	// lines the detector saw (a side not seen this frame is absent),
+	// LanePx the lane's width at the reference row (measured, or learned
+	// when one side is missing) and LaneMM the same on the floor with a
+	// calibration, while tracking.
+	LeftPoints  [][2]float64 `json:"left_points,omitempty"`
+	RightPoints [][2]float64 `json:"right_points,omitempty"`
+	LanePx      float64      `json:"lane_width_px,omitempty"`
+	LaneMM      *float64     `json:"lane_width_mm,omitempty"`
 	// Latencies in milliseconds (live runs): capture → decision → cue.
 	CaptureMS  *float64 `json:"capture_ms,omitempty"`
 	DecisionMS *float64 `json:"decision_ms,omitempty"`
@@ -90,6 +100,8 @@ type Writer struct {
 	log       zerolog.Logger
 	cw        *chainWriter
 	pts       []byte
+	cpts      []byte
+	side      []byte
 	sum       Summary
 	prevAlarm bool
 	closed    bool
@@ -135,7 +147,7 @@ func (w *Writer) Write(r *Record) error {
 	if w.closed {
 		return errors.New("tracklog: write after close")
 	}
-	w.pts = appendPoints(w.pts[:0], r.Points)
+	w.cpts = appendPoints(w.cpts[:0], r.Points)
 	e := w.log.Log().
 		Int("frame", r.Frame).
 		Float64("t", math.Round(r.T*1e6)/1e6).
@@ -143,7 +155,7 @@ func (w *Writer) Write(r *Record) error {
 		Bool("alarm", r.Alarm).
 		Float64("confidence", r3(r.Confidence)).
 		Str("state", r.State).
-		RawJSON("points", w.pts).
+		RawJSON("points", w.cpts).
 		Float64("offset_px", r3(r.OffsetPx)).
 		Float64("heading_deg", r3(r.HeadingDeg)).
 		Str("method", r.Method).
@@ -160,10 +172,21 @@ func (w *Writer) Write(r *Record) error {
 	if r.Reason != "" {
 		e = e.Str("reason", r.Reason)
 	}
+	if len(r.LeftPoints) > 0 {
+		w.pts = appendPoints(w.pts[:0], r.LeftPoints)
+		e = e.RawJSON("left_points", w.pts)
+	}
+	if len(r.RightPoints) > 0 {
+		w.side = appendPoints(w.side[:0], r.RightPoints)
+		e = e.RawJSON("right_points", w.side)
+	}
+	if r.LanePx != 0 {
+		e = e.Float64("lane_width_px", r3(r.LanePx))
+	}
 	for _, f := range []struct {
 		k string
 		v *float64
-	}{{"offset_mm", r.OffsetMM}, {"heading_floor_deg", r.HeadingFloorDeg}, {"width_mm", r.WidthMM}, {"capture_ms", r.CaptureMS}, {"decision_ms", r.DecisionMS}} {
+	}{{"offset_mm", r.OffsetMM}, {"heading_floor_deg", r.HeadingFloorDeg}, {"width_mm", r.WidthMM}, {"lane_width_mm", r.LaneMM}, {"capture_ms", r.CaptureMS}, {"decision_ms", r.DecisionMS}} {
 		if f.v != nil {
 			e = e.Float64(f.k, r3(*f.v))
 		}

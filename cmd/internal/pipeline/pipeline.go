@@ -61,9 +61,12 @@ type Result struct {
 	Drops int
 }
 
-// FloorValues are the calibrated measurements of one frame.
+// FloorValues are the calibrated measurements of one frame. In lane mode
+// LaneWidthMM is the lane's width (LaneOK when it could be mapped).
 type FloorValues struct {
 	OffsetMM, HeadingDeg, WidthMM float64
+	LaneWidthMM                   float64
+	LaneOK                        bool
 }
 
 // FloorMapper turns a detection into floor values; nil means uncalibrated.

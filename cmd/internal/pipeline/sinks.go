@@ -8,6 +8,7 @@ import (
 	"gocv.io/x/gocv"
 
 	"github.com/hewline/hewline/guidance/tracklog"
+	"github.com/hewline/hewline/vision"
 )
 
 // RecordWriter takes track-log records: a *tracklog.Writer or a
@@ -16,10 +17,22 @@ type RecordWriter interface {
 	Write(r *tracklog.Record) error
 }
 
-// LogSink writes every frame to a track log.
+// LogSink writes every frame to a track log. In lane mode (the detection
+// carries a vision.LaneMeasure) the record adds the boundaries and the
+// lane's width.
 type LogSink struct {
-	W   RecordWriter
-	rec tracklog.Record
+	W           RecordWriter
+	rec         tracklog.Record
+	left, right [][2]float64 // reused boundary buffers
+}
+
+// points converts detector points into the log's pairs, reusing dst.
+func points(dst [][2]float64, src []vision.Point) [][2]float64 {
+	dst = dst[:0]
+	for _, p := range src {
+		dst = append(dst, [2]float64{p.X, p.Y})
+	}
+	return dst
 }
 
 // Frame implements Sink.
@@ -28,10 +41,7 @@ func (s *LogSink) Frame(r *Result, _ gocv.Mat) error {
 		return nil // the log has one record per frame
 	}
 	rec := &s.rec
-	pts := rec.Points[:0]
-	for _, p := range r.Det.Points {
-		pts = append(pts, [2]float64{p.X, p.Y})
-	}
+	pts := points(rec.Points, r.Det.Points)
 	*rec = tracklog.Record{
 		Frame:          r.Info.Index,
 		T:              r.Info.T.Seconds(),
@@ -56,10 +66,25 @@ func (s *LogSink) Frame(r *Result, _ gocv.Mat) error {
 	} else {
 		m := r.Det.OffsetPx
 		rec.MeasOffsetPx = &m
+		if ln := r.Det.Lane; ln != nil {
+			if len(ln.Left) > 0 {
+				s.left = points(s.left, ln.Left)
+				rec.LeftPoints = s.left
+			}
+			if len(ln.Right) > 0 {
+				s.right = points(s.right, ln.Right)
+				rec.RightPoints = s.right
+			}
+			rec.LanePx = ln.WidthPx
+		}
 	}
 	if r.Floor != nil && r.Est.Tracking {
 		off, head, w := r.Floor.OffsetMM, r.Floor.HeadingDeg, r.Floor.WidthMM
 		rec.OffsetMM, rec.HeadingFloorDeg, rec.WidthMM = &off, &head, &w
+		if r.Floor.LaneOK {
+			lw := r.Floor.LaneWidthMM
+			rec.LaneMM = &lw
+		}
 	}
 	if !r.Captured.IsZero() && !r.Decided.IsZero() {
 		d := float64(r.Decided.Sub(r.Captured).Microseconds()) / 1000
@@ -134,10 +159,17 @@ func Annotate(img *gocv.Mat, r *Result) {
 	if r.Est.Tracking {
 		col = green
 	}
-	for i := 1; i < len(r.Det.Points); i++ {
-		a, b := r.Det.Points[i-1], r.Det.Points[i]
-		gocv.Line(img, image.Pt(int(a.X), int(a.Y)), image.Pt(int(b.X), int(b.Y)), col, th)
+	polyline := func(pts []vision.Point, c color.RGBA) {
+		for i := 1; i < len(pts); i++ {
+			a, b := pts[i-1], pts[i]
+			gocv.Line(img, image.Pt(int(a.X), int(a.Y)), image.Pt(int(b.X), int(b.Y)), c, th)
+		}
 	}
+	if ln := r.Det.Lane; ln != nil && r.Det.Found {
+		polyline(ln.Left, white)
+		polyline(ln.Right, white)
+	}
+	polyline(r.Det.Points, col)
 	if r.Det.Found {
 		y := int(r.Det.RefRow)
 		gocv.Line(img, image.Pt(w/2, y-int(8*scale)), image.Pt(w/2, y+int(8*scale)), white, th)

@@ -142,11 +142,9 @@ func (s *Site) check(failed map[string]bool) []Problem {
 
 	// follow
 	switch strings.ToLower(strings.TrimSpace(s.Follow)) {
-	case "stripe":
-	case "lane":
-		c.bad("follow", "lane mode is not in this version (use stripe)")
+	case "stripe", "lane":
 	default:
-		c.bad("follow", "%q is not a follow mode (want stripe)", s.Follow)
+		c.bad("follow", "%q is not a follow mode (want stripe or lane)", s.Follow)
 	}
 
 	// detector

@@ -18,7 +18,7 @@ import (
 type Site struct {
 	Camera Camera `yaml:"camera"`
 	// Follow is what the vehicle follows: "stripe" (one taped or painted
-	// line) or "lane" (the space between two lines; not in this version).
+	// line) or "lane" (the centre of the space between two lines).
 	Follow      string      `yaml:"follow"`
 	Detector    Detector    `yaml:"detector"`
 	Alarm       Alarm       `yaml:"alarm"`

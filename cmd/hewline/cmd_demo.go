@@ -11,6 +11,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"syscall"
 	"time"
 
 	"github.com/hewline/hewline/capture/synth"
@@ -95,7 +96,7 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	o.progress = isTerminal(stderr) && workers == 1
 	fmt.Fprintln(stdout, safetyShort)
 	fmt.Fprintf(stdout, "%d clips, %d at a time\n", len(todo), workers)
-	start := time.Now()
+	start, cpu0 := time.Now(), cpuTime()
 	outs, errs := report.ParallelMap(ctx, todo, workers, func(ctx context.Context, j demoJob) (*demoOutcome, error) {
 		return runDemoJob(ctx, j, *out, *o, *baseline, stderr)
 	})
@@ -115,7 +116,7 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 			filepath.Join(*out, oc.job.base()+".annotated.avi"))
 		done = append(done, oc)
 	}
-	took := time.Since(start)
+	took, cpu := time.Since(start), cpuTime()-cpu0
 	if len(done) == 0 {
 		return fmt.Errorf("no clip could be scored: %s", strings.Join(failed, ", "))
 	}
@@ -132,11 +133,11 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	}
 	fmt.Fprintln(stdout)
 	io.WriteString(stdout, tables)
-	fmt.Fprintf(stdout, "\n%d clips in %.0f s with %d at a time; summary: %s\n", len(done), took.Seconds(), workers, sumPath)
+	fmt.Fprintf(stdout, "\n%d clips in %.0f s (%.0f s of CPU) with %d at a time; summary: %s\n", len(done), took.Seconds(), cpu.Seconds(), workers, sumPath)
 	if *readme != "" {
 		var b strings.Builder
-		fmt.Fprintf(&b, "Scores of `hewline demo` (regenerate: `bash scripts/scores.sh`), %s, hewline %s, %d clips in %.0f min on %d cores.\n",
-			time.Now().UTC().Format("2006-01-02"), version, len(done), took.Minutes(), runtime.NumCPU())
+		fmt.Fprintf(&b, "Scores of `hewline demo` (regenerate: `bash scripts/scores.sh`), %s, hewline %s, %d clips in %.0f min (%.0f min of CPU) on %d cores.\n",
+			time.Now().UTC().Format("2006-01-02"), version, len(done), took.Minutes(), cpu.Minutes(), runtime.NumCPU())
 		b.WriteString(scoreRule)
 		b.WriteString(tables)
 		if err := replaceBetween(*readme, "<!-- scores:begin -->", "<!-- scores:end -->", b.String()); err != nil {
@@ -198,6 +199,16 @@ func runDemoJob(ctx context.Context, j demoJob, dir string, o replayOptions, bas
 		}
 	}
 	return oc, nil
+}
+
+// cpuTime is the CPU time this process has used so far (user + system;
+// 0 where the platform does not say).
+func cpuTime() time.Duration {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return 0
+	}
+	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
 
 // followOf is a scene's follow mode.

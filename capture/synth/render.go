@@ -158,6 +158,7 @@ type Renderer struct {
 	lastOK  bool
 	workers int
 	closed  bool
+	err     error // from the last render's JPEG pass
 }
 
 // ErrScenario marks a Scenario whose parameters cannot be rendered.
@@ -334,6 +335,9 @@ func (r *Renderer) Read(dst *gocv.Mat) (capture.FrameInfo, error) {
 	i := r.next
 	r.next++
 	r.last = r.render(i)
+	if r.err != nil {
+		return capture.FrameInfo{}, fmt.Errorf("synth: frame %d: %w", i, r.err)
+	}
 	if dst.Empty() || dst.Rows() != r.h || dst.Cols() != r.w || dst.Type() != gocv.MatTypeCV8UC3 || !dst.IsContinuous() {
 		dst.Close()
 		*dst = gocv.NewMatWithSize(r.h, r.w, gocv.MatTypeCV8UC3)
@@ -536,36 +540,35 @@ func (r *Renderer) render(i int) truth.Frame {
 		r.parallel(func(j0, j1 int) { r.shadeRows(sts, j0, j1, n, last, i) })
 	}
 	if q := r.sc.JPEGQuality; q > 0 {
-		r.jpeg(q)
+		r.err = r.jpeg(q)
 	}
 	return r.truthAt(i, r.cartAt(t))
 }
 
 // jpeg passes r.buf through OpenCV's JPEG encoder and decoder at quality
-// q. The frame is the renderer's own, so it cannot fail on the caller's
-// data; if OpenCV refuses, the frame is left as rendered and the error is
-// a programming mistake (sizes are checked by New), so it panics.
-func (r *Renderer) jpeg(q int) {
+// q (1..100, checked by New; the frame's size was checked there too).
+func (r *Renderer) jpeg(q int) error {
 	src, err := gocv.NewMatFromBytes(r.h, r.w, gocv.MatTypeCV8UC3, r.buf)
 	if err != nil {
-		panic(fmt.Sprintf("synth: jpeg: %v", err))
+		return fmt.Errorf("synth: jpeg: %w", err)
 	}
 	defer src.Close()
 	enc, err := gocv.IMEncodeWithParams(gocv.JPEGFileExt, src, []int{gocv.IMWriteJpegQuality, q})
 	if err != nil {
-		panic(fmt.Sprintf("synth: jpeg encode: %v", err))
+		return fmt.Errorf("synth: jpeg encode: %w", err)
 	}
 	defer enc.Close()
 	dec, err := gocv.IMDecode(enc.GetBytes(), gocv.IMReadColor)
 	if err != nil {
-		panic(fmt.Sprintf("synth: jpeg decode: %v", err))
+		return fmt.Errorf("synth: jpeg decode: %w", err)
 	}
 	defer dec.Close()
 	data, err := dec.DataPtrUint8()
 	if err != nil || dec.Rows() != r.h || dec.Cols() != r.w || len(data) != len(r.buf) {
-		panic(fmt.Sprintf("synth: jpeg decode gave %dx%d (%v)", dec.Cols(), dec.Rows(), err))
+		return fmt.Errorf("synth: jpeg decode gave %dx%d (%v)", dec.Cols(), dec.Rows(), err)
 	}
 	copy(r.buf, data)
+	return nil
 }
 
 // parallel runs f over bands of rows on up to r.workers goroutines. Every

@@ -310,6 +310,25 @@ func TestScenarios(t *testing.T) {
 			if f := r.Truth(); !f.Visible || len(f.Points) < 20 {
 				t.Errorf("frame 0: visible %v with %d points", f.Visible, len(f.Points))
 			}
+			// the same scene at the small and large sizes the suite uses:
+			// rendered at 160×120, truth only at 1280×720
+			small, err := New(sc.Resized(160, 120))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if _, err := small.Read(&m); err != nil || m.Cols() != 160 || m.Rows() != 120 {
+				t.Fatalf("160x120: %v, %dx%d", err, m.Cols(), m.Rows())
+			}
+			if f := small.Truth(); !f.Visible || len(f.Points) < 15 {
+				t.Errorf("160x120 frame 0: visible %v with %d points", f.Visible, len(f.Points))
+			}
+			big, err := New(sc.Resized(1280, 720))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if f := big.truthAt(0, big.cartAt(0)); !f.Visible || len(f.Points) < 60 {
+				t.Errorf("1280x720 frame 0: visible %v with %d points", f.Visible, len(f.Points))
+			}
 		})
 	}
 }

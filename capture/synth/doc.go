@@ -102,7 +102,9 @@
 // eye, not measured.
 //
 // Props (people, rack uprights) are flat cut-outs facing the camera, not
-// anti-aliased; the backdrop is at infinity (no parallax). JPEG blocking
+// anti-aliased; the backdrop is at infinity (no parallax). Motion blur is
+// a few instants averaged (7 in blur-heavy), so a long smear shows steps
+// in the near rows rather than a smooth ramp. JPEG blocking
 // goes through OpenCV's own encoder. Not modelled: walls and racks as 3-D
 // geometry, a real camera's exposure controller (the drift is a smooth
 // random signal), shadows cast by props.

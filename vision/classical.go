@@ -65,6 +65,7 @@ type Classical struct {
 	pc1, pc2  []float64 // band profiles of cr1, cr2
 	scratch   []float64 // for medians
 	chans     []selector
+	perBand   []float64 // per-band support of the chosen and the second line
 	profile   []float64
 	gmax      []float64
 	prefix    []float64

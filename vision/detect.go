@@ -21,48 +21,182 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 	c.rng = frameSeed
 	slot := 0
 	chans := c.channels(wantLight, wantDark)
+	// Each channel's best line is scored by its support in every channel:
+	// yellow tape is both lighter than the floor and of another colour, a
+	// tyre mark or a joint of the same width only darker.
 	var bestFull, bestGated *fitResult
-	var bestFullSel, bestGatedSel selector
+	var fullTotal, gatedTotal float64
 	for _, sel := range chans {
 		r := c.ransac(l, fr.ww, byBand, sel, slot)
 		slot++
-		if c.acceptable(r, l) && (bestFull == nil || r.score > bestFull.score) {
-			bestFull, bestFullSel = r, sel
+		if c.acceptable(r, l) && reaches(r, l, yRefW) {
+			if t := c.totalScore(r.centre, l, fr.ww, byBand, chans, false); bestFull == nil || t > fullTotal {
+				bestFull, fullTotal = r, t
+			}
 		}
 		if hint.Valid {
 			gs := sel
 			gs.gatedOnly = true
 			g := c.ransac(l, fr.ww, byBand, gs, slot)
 			slot++
-			if c.acceptable(g, l) && (bestGated == nil || g.score > bestGated.score) {
-				bestGated, bestGatedSel = g, sel
+			if c.acceptable(g, l) && reaches(g, l, yRefW) {
+				if t := c.totalScore(g.centre, l, fr.ww, byBand, chans, true); bestGated == nil || t > gatedTotal {
+					bestGated, gatedTotal = g, t
+				}
 			}
 		}
 	}
-	chosen, chosenSel, fromPrior := bestFull, bestFullSel, false
-	if bestGated != nil && (bestFull == nil || bestGated.score >= 0.6*bestFull.score) {
-		chosen, chosenSel, fromPrior = bestGated, bestGatedSel, true
+	chosen, fromPrior := bestFull, false
+	if bestGated != nil && (bestFull == nil || gatedTotal >= 0.6*fullTotal) {
+		chosen, fromPrior = bestGated, true
 	}
 	if chosen == nil {
 		return notFound(c.whyNot(l))
 	}
 
 	// Ambiguity: the best other line, drawn from candidates off the chosen
-	// one, under the same gate as the chosen line.
+	// one, under the same gate as the chosen line. It is compared with the
+	// chosen line where the two differ (bands where its support is off
+	// the chosen line): a branch or a parallel line as strong as the
+	// stripe there is ambiguous, a curve that follows the stripe and
+	// strays only at its far end onto a glint or a beam is not.
 	for i := range c.cands {
 		cd := &c.cands[i]
 		cd.taken = math.Abs(cd.x-chosen.centre.x(cd.y)) <= math.Max(1.5*chosen.width.x(cd.y), 2*tolerance(cd, fr.ww))
 	}
-	second := 0.0
+	if cap(c.perBand) < 2*l.n {
+		c.perBand = make([]float64, 2*l.n)
+	}
+	mine, theirs := c.perBand[:l.n], c.perBand[l.n:2*l.n]
+	c.support(chosen.centre, l, fr.ww, byBand, chans, fromPrior, false, mine)
+	ambig := 0.0
 	for _, sel := range chans {
 		sel.gatedOnly, sel.sampleFree = fromPrior, true
 		r := c.ransac(l, fr.ww, byBand, sel, slot)
 		slot++
-		if c.acceptable(r, l) {
-			second = math.Max(second, r.score)
+		if !c.acceptable(r, l) || !reaches(r, l, yRefW) || !floorLike(chosen, r) {
+			continue
+		}
+		c.support(r.centre, l, fr.ww, byBand, chans, fromPrior, true, theirs)
+		var s1, s2 float64
+		apart := 0
+		for k := range theirs {
+			if theirs[k] > 0 {
+				s2 += theirs[k]
+				s1 += mine[k]
+				apart++
+			}
+		}
+		// Apart over less than half the shortest accepted line: the same
+		// line, not another one.
+		if float64(apart) < 0.5*c.cfg.MinSpan*float64(l.n) {
+			continue
+		}
+		ambig = math.Max(ambig, s2/math.Max(s1, 1e-9))
+	}
+	return c.report(fr, l, chosen, false, fromPrior, ambig, hint, yRefIn, yRefW)
+}
+
+// totalScore is the support of curve q summed over the channels chans
+// (only gated candidates when gatedOnly).
+func (c *Classical) totalScore(q curve, l bandLayout, ww int, byBand [][2]int, chans []selector, gatedOnly bool) float64 {
+	if cap(c.fit.trial) < l.n {
+		c.fit.best, c.fit.trial = make([]int, l.n), make([]int, l.n)
+	}
+	out := c.fit.trial[:l.n]
+	t := 0.0
+	for _, sel := range chans {
+		sel.gatedOnly = gatedOnly
+		s, _ := c.evaluate(q, l, ww, byBand, sel, out)
+		t += s
+	}
+	return t
+}
+
+// reachWithin is how far beyond its measured stretch a line may be run
+// out to the reference row: a tenth of the ROI height; for a line with
+// gaps of its own along the measured stretch (dashes), also up to a
+// quarter of the measured span, since the unseen near end is then most
+// likely one more gap. A solid line that starts far ahead (the tape
+// resuming after a missing stretch) is not stretched down to the vehicle.
+// report's confidence factor reaches zero there.
+func reachWithin(r *fitResult, l bandLayout) float64 {
+	reach := 0.1 * float64(l.y1-l.y0)
+	if r.dashed(l) {
+		reach = math.Max(reach, 0.25*(r.yHi-r.yLo))
+	}
+	return reach
+}
+
+// reaches says whether line r comes near enough to the reference row to
+// measure the offset there. A line seen only far up the image (a rack
+// upright above the horizon, a stripe ahead across the aisle) cannot
+// guide the vehicle, and must not hide the one that can.
+func reaches(r *fitResult, l bandLayout, yRefW float64) bool {
+	step := float64(l.step)
+	e := math.Max(yRefW-(r.yHi+step), (r.yLo-step)-yRefW)
+	return e < reachWithin(r, l)
+}
+
+// floorLike says whether line r can lie on the same floor as the chosen
+// line. On a flat floor seen in perspective every line's image width
+// shrinks towards the horizon at the same rate (it is proportional to the
+// row's distance below the horizon), so the chosen line's width profile
+// predicts how much r must narrow between its ends. A line that does not
+// narrow as predicted (a rack upright, a wall edge, a window frame), or
+// lies where the chosen line's width has already run out (above the
+// horizon), is not on the floor. Without perspective to judge by (a
+// camera looking straight down, or a short line) every line is.
+func floorLike(chosen, r *fitResult) bool {
+	eTop, eBot := chosen.width.x(r.yLo), chosen.width.x(r.yHi)
+	if eBot <= 0 {
+		return true
+	}
+	if eTop <= 0 {
+		return false
+	}
+	want := eTop / eBot
+	if want > 0.8 {
+		return true
+	}
+	wTop, wBot := r.width.x(r.yLo), r.width.x(r.yHi)
+	if wBot <= 0 {
+		return true
+	}
+	// Generous: widths are measured to a pixel or so on thin far lines.
+	return wTop/wBot <= 1.5*want+0.1
+}
+
+// support fills perBand[k] with curve q's support in band k summed over
+// the channels chans, scored as in evaluate (only gated candidates when
+// gatedOnly; only candidates off the chosen line when freeOnly).
+func (c *Classical) support(q curve, l bandLayout, ww int, byBand [][2]int, chans []selector, gatedOnly, freeOnly bool, perBand []float64) {
+	for k := range perBand {
+		perBand[k] = 0
+	}
+	for _, sel := range chans {
+		sel.gatedOnly = gatedOnly
+		for k := 0; k < l.n; k++ {
+			lo, hi := byBand[k][0], byBand[k][1]
+			xq := q.x(l.centre(k))
+			bestD, bestI := math.Inf(1), -1
+			for i := lo; i < hi; i++ {
+				cd := &c.cands[i]
+				if !sel.ok(cd) {
+					continue
+				}
+				if d := math.Abs(cd.x - xq); d <= tolerance(cd, ww) && d < bestD {
+					bestD, bestI = d, i
+				}
+			}
+			if bestI < 0 || (freeOnly && c.cands[bestI].taken) {
+				continue
+			}
+			cd := &c.cands[bestI]
+			r := bestD / tolerance(cd, ww)
+			perBand[k] += c.weight(cd, l) * (1 - 0.5*r*r)
 		}
 	}
-	return c.report(fr, l, chosen, chosenSel.dark, fromPrior, second, hint, yRefIn, yRefW)
 }
 
 // channels lists the evidence the fit tries: luminance lighter and darker
@@ -175,15 +309,18 @@ func (c *Classical) widthHintIn(fr frameGeom) float64 {
 
 func clamp01(v float64) float64 { return math.Min(1, math.Max(0, v)) }
 
-func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromPrior bool, second float64, hint Hint, yRefIn, yRefW float64) Detection {
+// report turns fit r into a Detection. ambig is the other line's strength
+// against r's where the two differ (0: none); dark is unused (kept for
+// callers in lane.go).
+func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromPrior bool, ambig float64, hint Hint, yRefIn, yRefW float64) Detection {
 	roiH := float64(l.y1 - l.y0)
 	step := float64(l.step)
 	spanBands := (r.yHi-r.yLo)/step + 1
 	span := (r.yHi - r.yLo + step) / roiH
 
 	// Geometry in input pixels.
-	xRefW := r.centre.x(yRefW)
-	slopeIn := r.centre.slope(yRefW) * fr.sy / fr.sx // dx/dy in input pixels
+	xRefW := r.xAt(yRefW)
+	slopeIn := r.slopeAt(yRefW) * fr.sy / fr.sx // dx/dy in input pixels
 	heading := math.Atan(-slopeIn) * 180 / math.Pi
 	widthIn := math.Max(r.width.x(yRefW), 0) / fr.sx * math.Cos(heading*math.Pi/180)
 
@@ -196,10 +333,16 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		WidthPx:    widthIn,
 	}
 	yBot := math.Min(r.yHi+step/2, float64(l.y1))
-	// A short unseen stretch at the near end (a gap between dashes, a worn
-	// patch) is bridged down to the bottom of the ROI: at most 15 % of its
-	// height, the same extrapolation the offset at the reference row uses.
-	if float64(l.y1)-yBot <= 0.15*roiH {
+	// An unseen stretch at the near end (a gap between dashes, a worn
+	// patch) is bridged down to the bottom of the ROI when it is short
+	// against the measured line: at most 15 % of the ROI height, or for a
+	// dashed line half the measured span (a line measured across several
+	// dashes is well determined beyond them).
+	reach := 0.15 * roiH
+	if r.dashed(l) {
+		reach = math.Max(reach, 0.5*(r.yHi-r.yLo))
+	}
+	if float64(l.y1)-yBot <= reach {
 		yBot = float64(l.y1)
 	}
 	yTop := math.Max(r.yLo-step/2, float64(l.y0))
@@ -207,7 +350,7 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	d.Points = make([]Point, n)
 	for i := range d.Points {
 		y := yBot + (yTop-yBot)*float64(i)/float64(n-1)
-		d.Points[i] = Point{X: fr.toInX(r.centre.x(y)), Y: fr.toInY(y)}
+		d.Points[i] = Point{X: fr.toInX(r.xAt(y)), Y: fr.toInY(y)}
 	}
 
 	// Confidence: each factor in [0, 1], named for the Reason.
@@ -222,7 +365,7 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		{clamp01(span / 0.5), "short line"},
 		{clamp01(1 - 0.5*r.rms*r.rms), "poor fit"},
 		{0.3 + 0.7*clamp01((r.meanSNR-c.cfg.MinSNR)/(2*c.cfg.MinSNR)), "low contrast"},
-		{1 - clamp01((second/r.score-0.3)/0.6), "ambiguous: another line nearly as strong"},
+		{1 - clamp01((ambig-0.3)/0.6), "ambiguous: another line nearly as strong"},
 		{1 - 0.7*r.satShare, "saturated (glare or reflection)"},
 		// Most of the near half clipped: a reflection streak in line with
 		// a farther stretch of line, not tape (glare saturates only spots).
@@ -238,9 +381,10 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	fs = append(fs, factor{clamp01(widthIn / minW), "too narrow for a stripe"})
 	// The reference row should lie on or near the measured stretch.
 	if e := math.Max(yRefW-(r.yHi+step), (r.yLo-step)-yRefW); e > 0 {
-		// Extrapolating the offset beyond the seen stretch is a guess: a tenth
-		// of the ROI height away the factor reaches 0.
-		fs = append(fs, factor{clamp01(1 - e/(0.1*roiH)), "reference row off the measured stretch"})
+		// Extrapolating the offset beyond the seen stretch is a guess: the
+		// factor reaches 0 a tenth of the ROI height away, or a quarter of
+		// the measured span for a long line.
+		fs = append(fs, factor{clamp01(1 - e/reachWithin(r, l)), "reference row off the measured stretch"})
 	}
 	if hint.Valid {
 		if !fromPrior {
@@ -264,6 +408,5 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	if d.Confidence < 0.5 {
 		d.Reason = fs[worst].name
 	}
-	_ = dark
 	return d
 }

@@ -37,6 +37,44 @@ type fitResult struct {
 	nearSat float64
 }
 
+// xAt is the centreline at row y: the fitted curve over the measured
+// stretch [yLo, yHi], and its tangent beyond the ends (a parabola run out
+// past its data bends ever faster; the tangent is the cautious guess
+// across a gap between dashes).
+func (r *fitResult) xAt(y float64) float64 {
+	switch {
+	case y > r.yHi:
+		return r.centre.x(r.yHi) + r.centre.slope(r.yHi)*(y-r.yHi)
+	case y < r.yLo:
+		return r.centre.x(r.yLo) + r.centre.slope(r.yLo)*(y-r.yLo)
+	}
+	return r.centre.x(y)
+}
+
+// dashed says whether the measured stretch has gaps of its own: a run of
+// bands without support, inside the stretch, at least 5 % of the ROI
+// height long.
+func (r *fitResult) dashed(l bandLayout) bool {
+	run, longest := 0, 0
+	seen := false
+	for _, i := range r.bands {
+		if i >= 0 {
+			if seen {
+				longest = max(longest, run)
+			}
+			seen, run = true, 0
+			continue
+		}
+		run++
+	}
+	return float64(longest*l.step) >= 0.05*float64(l.y1-l.y0)
+}
+
+// slopeAt is dx/dy of xAt at row y.
+func (r *fitResult) slopeAt(y float64) float64 {
+	return r.centre.slope(math.Min(math.Max(y, r.yLo), r.yHi))
+}
+
 // fitter holds the fit's scratch memory.
 type fitter struct {
 	best, trial []int

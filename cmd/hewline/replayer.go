@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -76,17 +77,23 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 	if err != nil {
 		return nil, nil, err
 	}
+	vcfg := o.vision
+	if o.calib != "" {
+		if vcfg, err = floorROI(vcfg, o.calib); err != nil {
+			return nil, nil, err
+		}
+	}
 	if mode == followLane {
 		if o.cnn || o.cnnCheck > 0 {
 			return nil, nil, usagef("-cnn and -cnn-check work in stripe mode only (the shipped model knows one stripe, not a lane)")
 		}
-		ln, err := vision.NewLane(o.vision, vision.DefaultLaneConfig())
+		ln, err := vision.NewLane(vcfg, vision.DefaultLaneConfig())
 		if err != nil {
 			return nil, nil, err
 		}
 		return &pipeline.Fused{Primary: ln}, func() { ln.Close() }, nil
 	}
-	cl, err := vision.NewClassical(o.vision)
+	cl, err := vision.NewClassical(vcfg)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -136,6 +143,32 @@ func followMode(s string) (string, error) {
 		return followLane, nil
 	}
 	return "", usagef("-follow %q: want stripe or lane", s)
+}
+
+// floorROI moves the top of the detector's region of interest down to
+// where the calibrated floor ends (vision.FloorTop: the horizon, or the
+// floor beyond vision.FloorRangeMM), so that walls, racks and windows above
+// it are never searched. A region set lower by the site stays as it is.
+func floorROI(cfg vision.Config, path string) (vision.Config, error) {
+	f, err := calib.Load(path)
+	if err != nil {
+		return cfg, err
+	}
+	m, err := calib.NewMapper(f)
+	if err != nil {
+		return cfg, fmt.Errorf("%s: %w", path, err)
+	}
+	top := vision.FloorTop(floorPoints{m}, f.ImageSize[0], f.ImageSize[1])
+	cfg.ROI.Top = math.Max(cfg.ROI.Top, math.Min(top, cfg.ROI.Bottom-0.1))
+	return cfg, nil
+}
+
+// floorPoints adapts calib.Mapper to vision.FloorMap.
+type floorPoints struct{ m *calib.Mapper }
+
+func (f floorPoints) ToFloorMM(x, y float64) (float64, float64, bool) {
+	p, ok := f.m.ToFloor(calib.Pt{X: x, Y: y})
+	return p.X, p.Y, ok
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"sync"
 	"testing"
 	"testing/synctest"
 	"time"
@@ -17,63 +16,21 @@ import (
 
 const frameInterval = time.Second / 30
 
-// recorder collects events from the Supervisor's goroutines.
-type recorder struct {
-	mu     sync.Mutex
-	events []v4l2.Event
-}
-
-func (r *recorder) add(e v4l2.Event) {
-	r.mu.Lock()
-	r.events = append(r.events, e)
-	r.mu.Unlock()
-}
-
-func (r *recorder) kinds(only ...v4l2.EventKind) []v4l2.EventKind {
-	r.mu.Lock()
-	defer r.mu.Unlock()
-	var out []v4l2.EventKind
-	for _, e := range r.events {
-		if len(only) == 0 {
-			out = append(out, e.Kind)
-			continue
-		}
-		for _, k := range only {
-			if e.Kind == k {
-				out = append(out, e.Kind)
-			}
-		}
-	}
-	return out
-}
-
-func (r *recorder) of(k v4l2.EventKind) []v4l2.Event {
-	r.mu.Lock()
-	defer r.mu.Unlock()
-	var out []v4l2.Event
-	for _, e := range r.events {
-		if e.Kind == k {
-			out = append(out, e)
-		}
-	}
-	return out
-}
-
 type rig struct {
 	clk  *capturetest.Clock
 	fake *capturetest.FakeCamera
 	sup  *v4l2.Supervisor
-	ev   *recorder
+	ev   *capturetest.EventLog
 	dst  gocv.Mat
 }
 
 func newRig(t *testing.T, opt v4l2.Options, steps ...capturetest.Step) *rig {
 	t.Helper()
-	r := &rig{clk: capturetest.NewClock(time.Unix(1000, 0)), ev: &recorder{}, dst: gocv.NewMat()}
+	r := &rig{clk: capturetest.NewClock(time.Unix(1000, 0)), ev: &capturetest.EventLog{}, dst: gocv.NewMat()}
 	r.fake = capturetest.NewFakeCamera(steps...)
 	r.fake.Clock = r.clk
 	opt.Clock = r.clk
-	opt.OnEvent = r.ev.add
+	opt.OnEvent = r.ev.Add
 	if opt.Name == "" {
 		opt.Name = "fake0"
 	}
@@ -142,7 +99,7 @@ func TestEveryFrameInOrderAcrossFormatChanges(t *testing.T) {
 			t.Errorf("frame %d carries number %d", i, k)
 		}
 	}
-	if got := r.ev.of(v4l2.EventFormatChanged); len(got) != 2 || got[0].Format != capturetest.YUYV320 || got[1].Format != capturetest.MJPEG640 {
+	if got := r.ev.Of(v4l2.EventFormatChanged); len(got) != 2 || got[0].Format != capturetest.YUYV320 || got[1].Format != capturetest.MJPEG640 {
 		t.Errorf("format events %v", got)
 	}
 	st := r.sup.Stats()
@@ -193,7 +150,7 @@ func TestLiveFreshestFrameAndStall(t *testing.T) {
 	if err := <-got; !errors.Is(err, v4l2.ErrStalled) {
 		t.Fatalf("err = %v, want ErrStalled", err)
 	}
-	if ev := r.ev.of(v4l2.EventStalled); len(ev) != 1 || !ev[0].Kind.Faulty() {
+	if ev := r.ev.Of(v4l2.EventStalled); len(ev) != 1 || !ev[0].Kind.Faulty() {
 		t.Fatalf("stall events %v", ev)
 	}
 	// Still stalled: another ErrStalled after another StallAfter, counted
@@ -211,7 +168,7 @@ func TestLiveFreshestFrameAndStall(t *testing.T) {
 	if st.Stalls != 1 {
 		t.Errorf("stalls = %d, want 1", st.Stalls)
 	}
-	k := r.ev.kinds(v4l2.EventStalled, v4l2.EventResumed)
+	k := r.ev.Kinds(v4l2.EventStalled, v4l2.EventResumed)
 	if len(k) != 2 || k[0] != v4l2.EventStalled || k[1] != v4l2.EventResumed {
 		t.Errorf("events %v, want stalled then resumed", k)
 	}
@@ -264,7 +221,7 @@ func TestLongStallReopens(t *testing.T) {
 	if st.Losses != 1 || st.Reopens != 1 {
 		t.Errorf("stats %+v, want 1 loss and 1 reopen", st)
 	}
-	gone := r.ev.of(v4l2.EventGone)
+	gone := r.ev.Of(v4l2.EventGone)
 	if len(gone) != 1 || !errors.Is(gone[0].Err, v4l2.ErrStalled) {
 		t.Errorf("gone events %v, want one caused by the stall", gone)
 	}
@@ -282,14 +239,14 @@ func TestLongStallReopens(t *testing.T) {
 // the loss.
 func TestVanishReopensWithBackoff(t *testing.T) {
 	synctest.Test(t, func(t *testing.T) {
-		ev := &recorder{}
+		ev := &capturetest.EventLog{}
 		fake := capturetest.NewFakeCamera(
 			capturetest.Frames(2, capturetest.YUYV320),
 			capturetest.Vanish(3),
 			capturetest.Frames(2, capturetest.YUYV320),
 		)
 		fake.Clock = capturetest.Sleeper{}
-		sup := v4l2.NewSupervisor(fake, v4l2.Options{Name: "fake0", EveryFrame: true, OnEvent: ev.add,
+		sup := v4l2.NewSupervisor(fake, v4l2.Options{Name: "fake0", EveryFrame: true, OnEvent: ev.Add,
 			BackoffMin: 100 * time.Millisecond, BackoffMax: 250 * time.Millisecond})
 		if err := sup.Start(); err != nil {
 			t.Fatal(err)
@@ -319,7 +276,7 @@ func TestVanishReopensWithBackoff(t *testing.T) {
 		if !sawGone {
 			t.Error("Read never returned ErrGone")
 		}
-		failed := ev.of(v4l2.EventOpenFailed)
+		failed := ev.Of(v4l2.EventOpenFailed)
 		wantBackoff := []time.Duration{100 * time.Millisecond, 200 * time.Millisecond, 250 * time.Millisecond}
 		if len(failed) != 3 {
 			t.Fatalf("open-failed events %v", failed)
@@ -334,14 +291,14 @@ func TestVanishReopensWithBackoff(t *testing.T) {
 				}
 			}
 		}
-		opened := ev.of(v4l2.EventOpened)
+		opened := ev.Of(v4l2.EventOpened)
 		if len(opened) != 2 || opened[1].Attempt != 4 {
 			t.Fatalf("opened events %v, want the start and attempt 4", opened)
 		}
 		if d := opened[1].At.Sub(failed[2].At); d != wantBackoff[2] {
 			t.Errorf("reopened %v after the last failure, want its backoff %v", d, wantBackoff[2])
 		}
-		seq := ev.kinds(v4l2.EventGone, v4l2.EventOpened, v4l2.EventResumed, v4l2.EventStalled)
+		seq := ev.Kinds(v4l2.EventGone, v4l2.EventOpened, v4l2.EventResumed, v4l2.EventStalled)
 		want := []v4l2.EventKind{v4l2.EventOpened, v4l2.EventGone, v4l2.EventOpened, v4l2.EventResumed}
 		if fmt.Sprint(seq) != fmt.Sprint(want) {
 			t.Errorf("events %v, want %v", seq, want)

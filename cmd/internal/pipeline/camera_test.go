@@ -68,35 +68,12 @@ func (s *clockSink) Frame(r *pipeline.Result, _ gocv.Mat) error {
 	return nil
 }
 
-type eventLog struct {
-	mu sync.Mutex
-	ev []v4l2.Event
-}
-
-func (l *eventLog) add(e v4l2.Event) {
-	l.mu.Lock()
-	l.ev = append(l.ev, e)
-	l.mu.Unlock()
-}
-
-func (l *eventLog) of(k v4l2.EventKind) []v4l2.Event {
-	l.mu.Lock()
-	defer l.mu.Unlock()
-	var out []v4l2.Event
-	for _, e := range l.ev {
-		if e.Kind == k {
-			out = append(out, e)
-		}
-	}
-	return out
-}
-
 // cameraRun is one live run over a scripted fake camera.
 type cameraRun struct {
 	st     pipeline.Stats
 	err    error
 	got    []at
-	events *eventLog
+	events *capturetest.EventLog
 	sup    v4l2.Stats
 	served int
 	start  time.Time
@@ -124,8 +101,8 @@ func runCameraWith(t *testing.T, span time.Duration, det pipeline.Detector, setu
 	if setup != nil {
 		setup(fake)
 	}
-	ev := &eventLog{}
-	sup := v4l2.NewSupervisor(fake, v4l2.Options{Name: "fake0", FPS: 30, StallAfter: stallAfter, OnEvent: ev.add})
+	ev := &capturetest.EventLog{}
+	sup := v4l2.NewSupervisor(fake, v4l2.Options{Name: "fake0", FPS: 30, StallAfter: stallAfter, OnEvent: ev.Add})
 	if err := sup.Start(); err != nil {
 		t.Fatal(err)
 	}
@@ -222,10 +199,10 @@ func TestCameraStallRaisesAlarm(t *testing.T) {
 				if run.st.Faults == 0 || run.sup.Stalls != 1 {
 					t.Errorf("faults %d, camera stalls %d: want the stall reported (once)", run.st.Faults, run.sup.Stalls)
 				}
-				if n := len(run.events.of(v4l2.EventStalled)); n != 1 {
+				if n := len(run.events.Of(v4l2.EventStalled)); n != 1 {
 					t.Errorf("%d stall events, want 1 (no storm)", n)
 				}
-				if n := len(run.events.of(v4l2.EventResumed)); n != 1 {
+				if n := len(run.events.Of(v4l2.EventResumed)); n != 1 {
 					t.Errorf("%d resumed events, want 1", n)
 				}
 				// A 1 s stall at 250 ms each: a handful of reports, not thousands.
@@ -267,10 +244,10 @@ func TestCameraVanishReopensWithBackoff(t *testing.T) {
 		if d := o.alarm.t.Sub(o.lastGood.t); d > watchdog+time.Second/30 {
 			t.Errorf("alarm %v after the last good frame, want within %v", d, watchdog+time.Second/30)
 		}
-		if n := len(run.events.of(v4l2.EventGone)); n != 1 {
+		if n := len(run.events.Of(v4l2.EventGone)); n != 1 {
 			t.Errorf("%d gone events, want 1", n)
 		}
-		failed := run.events.of(v4l2.EventOpenFailed)
+		failed := run.events.Of(v4l2.EventOpenFailed)
 		want := []time.Duration{100 * time.Millisecond, 200 * time.Millisecond, 400 * time.Millisecond}
 		if len(failed) != len(want) {
 			t.Fatalf("%d failed reopen attempts logged, want %d", len(failed), len(want))
@@ -285,7 +262,7 @@ func TestCameraVanishReopensWithBackoff(t *testing.T) {
 				}
 			}
 		}
-		opened := run.events.of(v4l2.EventOpened)
+		opened := run.events.Of(v4l2.EventOpened)
 		if len(opened) != 2 || opened[1].Attempt != 4 {
 			t.Fatalf("opened events %+v, want the start and a reopen at attempt 4", opened)
 		}

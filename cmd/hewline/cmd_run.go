@@ -6,6 +6,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"net"
 	"os"
 	"path/filepath"
 	"sort"
@@ -391,6 +392,11 @@ func runRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 // statusURL is the page's address as the user should open it.
 func statusURL(addr string, remote bool) string {
 	u := "http://" + addr + "/"
+	if host, port, err := net.SplitHostPort(addr); err == nil {
+		if ip := net.ParseIP(host); ip != nil && ip.IsUnspecified() {
+			u = "http://<this computer's address>:" + port + "/ on every interface"
+		}
+	}
 	if remote {
 		return u + " (open to the network; every request needs the access token)"
 	}

@@ -305,6 +305,25 @@ func TestRunStatusAddressChecks(t *testing.T) {
 	}
 }
 
+// TestRunStatusRemoteWithToken: with -status-remote and a long enough
+// token the page binds all interfaces and start-up says it is open to the
+// network (the run then stops at the missing source).
+func TestRunStatusRemoteWithToken(t *testing.T) {
+	dir := t.TempDir()
+	tokenFile := filepath.Join(dir, "status.token")
+	os.WriteFile(tokenFile, []byte("aisle-c-0123456789\n"), 0o600)
+	cmd := exec.Command(binary, "run", "-source", filepath.Join(dir, "missing.avi"), "-track", filepath.Join(dir, "t.ndjson"),
+		"-status", "0.0.0.0:0", "-status-remote", "-status-token-file", tokenFile)
+	out, err := cmd.CombinedOutput()
+	ee, ok := err.(*exec.ExitError)
+	if !ok || ee.ExitCode() != 1 {
+		t.Fatalf("exit %v, want 1 (the missing source); output:\n%s", err, out)
+	}
+	if !strings.Contains(string(out), "status page: http://<this computer's address>:") || !strings.Contains(string(out), "every request needs the access token") {
+		t.Errorf("start-up does not show the remote page and its token:\n%s", out)
+	}
+}
+
 // TestRunServesStatus: a live run on a paced recording serves the status
 // page on the address it prints, behind the access token it was given:
 // /metrics counts the frames, exposes the live drop counter and latency

@@ -185,6 +185,13 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	if right != nil {
 		m.Right = curvePoints(fr, l, right)
 	}
+	// The lane must be seen near the vehicle: if no boundary supports
+	// at least half of the near half's bands, the lines are farther on
+	// (the near stretch is bare) and the centre there is a guess.
+	if cover := nearCover(l, left, right); cover < 0.5 {
+		d.Confidence *= cover
+		d.Reason = "no lane line in the near half"
+	}
 	if both {
 		m.WidthPx = (right.centre.x(yRefW) - left.centre.x(yRefW)) / fr.sx
 	} else {
@@ -199,6 +206,22 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	d.Lane = m
 	ln.remember(fr, l, &d, left, right, yRefW)
 	return d
+}
+
+// nearCover is the share of the near half's bands (the lower half of the
+// ROI) where at least one boundary has a supporting candidate.
+func nearCover(l bandLayout, a, b *fitResult) float64 {
+	n, seen := 0, 0
+	for k := 0; 2*k < l.n; k++ {
+		n++
+		if (a != nil && k < len(a.bands) && a.bands[k] >= 0) || (b != nil && k < len(b.bands) && b.bands[k] >= 0) {
+			seen++
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	return float64(seen) / float64(n)
 }
 
 // usable: long enough, and not a line of clipped pixels.
@@ -216,13 +239,27 @@ func keep(dst, r *fitResult) *fitResult {
 
 // best fits one line per polarity with sel and returns the better usable
 // one, copied into dst, or nil.
+//
+// A line one quadratic cannot follow over the whole ROI (an S-bend in
+// view, a boundary bending away at the far end) is fitted again over
+// the nearer 60 % of the bands, where the vehicle is guided from.
 func (ln *Lane) best(fr frameGeom, l bandLayout, byBand [][2]int, pols []bool, sel selector, dst *fitResult) *fitResult {
 	var found *fitResult
-	for i, dark := range pols {
-		sel.dark = dark
-		r := ln.c.ransac(l, fr.ww, byBand, sel, 4+i)
-		if ln.usable(r, l) && (found == nil || r.score > found.score) {
-			found = r
+	for _, near := range [2]bool{false, true} {
+		lay := l
+		if near {
+			lay.n = (l.n*3 + 4) / 5
+			lay.y0 = lay.y1 - lay.n*lay.step
+		}
+		for i, dark := range pols {
+			sel.dark = dark
+			r := ln.c.ransac(lay, fr.ww, byBand, sel, 4+i)
+			if ln.usable(r, lay) && (found == nil || r.score > found.score) {
+				found = r
+			}
+		}
+		if found != nil {
+			break
 		}
 	}
 	if found == nil {
@@ -344,9 +381,9 @@ func (ln *Lane) markTaken(fr frameGeom, r *fitResult) {
 // pair reports whether a (left) and b (right) can be a lane's two
 // boundaries: they overlap over at least a fifth of the ROI, b lies right
 // of a wherever both are, by at least four times the wider line's width
-// (a lane is much wider than its lines; this holds at every distance, as
-// both shrink alike with perspective), and by the learned width (within a
-// factor 1.3) where it is known.
+// at the near end of the overlap (a lane is much wider than its lines),
+// the gap narrows with distance, and it matches the learned width
+// (within a factor 1.3) where that is known.
 func (ln *Lane) pair(l bandLayout, a, b *fitResult) bool {
 	lo, hi := math.Max(a.yLo, b.yLo), math.Min(a.yHi, b.yHi)
 	if hi-lo < 0.2*float64(l.y1-l.y0) {
@@ -358,13 +395,18 @@ func (ln *Lane) pair(l bandLayout, a, b *fitResult) bool {
 	if b.centre.x(lo)-a.centre.x(lo) > 1.05*(b.centre.x(hi)-a.centre.x(hi)) {
 		return false
 	}
+	// Where the two are nearest the vehicle their widths are measured
+	// best: there the lane must be far wider than its lines.
+	if b.centre.x(hi)-a.centre.x(hi) < 4*math.Max(math.Max(a.width.x(hi), b.width.x(hi)), 1) {
+		return false
+	}
 	for k := 0; k < l.n; k++ {
 		y := l.centre(k)
 		if y < lo || y > hi {
 			continue
 		}
 		sep := b.centre.x(y) - a.centre.x(y)
-		if sep < 4*math.Max(math.Max(a.width.x(y), b.width.x(y)), 1) {
+		if sep <= 0 {
 			return false
 		}
 		perp := sep * math.Cos(math.Atan((a.centre.slope(y)+b.centre.slope(y))/2))

@@ -150,7 +150,7 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	}
 	yc := l.centre(k)
 	c.prefixSums(p)
-	c.ridges(p, gm, widths, l, k, yc, sigma*math.Sqrt(inv), wantLight, wantDark, false)
+	c.ridges(p, gm, widths, l, k, yc, sigma*math.Sqrt(inv), wantLight, wantDark, false, nil)
 	if !chroma {
 		return
 	}
@@ -159,17 +159,43 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	// into a profile the same ridge filter reads: the band's luminance
 	// level times (1 + chromaGain·distance), so that its Weber contrast is
 	// chromaGain·distance whatever the light.
-	base := c.medianStrided(p, 1)
+	base := c.medianStrided(p, 2)
 	for i := range q1 {
 		q1[i] *= inv
 		q2[i] *= inv
 	}
 	b1, b2 := c.medianStrided(q1, 2), c.medianStrided(q2, 2)
+	pLo, pHi := math.Inf(1), math.Inf(-1)
 	for i := range p {
-		p[i] = base * (1 + chromaGain*math.Hypot(q1[i]-b1, q2[i]-b2))
+		v := base * (1 + chromaGain*math.Hypot(q1[i]-b1, q2[i]-b2))
+		p[i] = v
+		pLo, pHi = math.Min(pLo, v), math.Max(pHi, v)
 	}
+	// No box can stand out by more than the profile's range: when nothing
+	// reaches the contrast threshold over the lowest level, the band has
+	// no colour ridge and the filters need not run (a grey floor and tape).
+	thr := pLo + c.cfg.MinContrast*(pLo+8)
+	if pHi < thr {
+		return
+	}
+	// A light box passes only if its mean, so some pixel in it, reaches
+	// thr (mean − side ≥ MinContrast·(side + 8) with side ≥ pLo): the
+	// filters need only run around those pixels.
+	runs := c.runs[:0]
+	for i := 0; i < len(p); i++ {
+		if p[i] < thr {
+			continue
+		}
+		j := i
+		for j < len(p) && p[j] >= thr {
+			j++
+		}
+		runs = append(runs, [2]int{i, j})
+		i = j
+	}
+	c.runs = runs
 	c.prefixSums(p)
-	c.ridges(p, gm, widths, l, k, yc, c.profileNoise(p), true, false, true)
+	c.ridges(p, gm, widths, l, k, yc, c.profileNoise(p), true, false, true, runs)
 }
 
 // chromaGain scales chromaticity distance into Weber contrast: a tape
@@ -254,7 +280,12 @@ func quickMedian(s []float64) float64 {
 // strongest non-overlapping candidates, at most maxPerBand, to c.cands,
 // marked as chroma candidates when chroma is set (p is then the chroma
 // profile).
-func (c *Classical) ridges(p, gm []float64, widths []int, l bandLayout, k int, yc, sigmaBand float64, wantLight, wantDark, chroma bool) {
+//
+// runs, when not nil, are the stretches [a, b) of p high enough for a box
+// over them to pass the light contrast test (see bandCandidates); boxes
+// that touch none are skipped without changing the result, since each
+// would take the filter's quick reject path.
+func (c *Classical) ridges(p, gm []float64, widths []int, l bandLayout, k int, yc, sigmaBand float64, wantLight, wantDark, chroma bool, runs [][2]int) {
 	n := len(p)
 	P, P2 := c.prefix[:n+1], c.prefix2[:n+1]
 	bc := c.bandCands[:0]
@@ -269,7 +300,28 @@ func (c *Classical) ridges(p, gm []float64, widths []int, l bandLayout, k int, y
 		var prevPos int
 		var prevSide float64
 		var prevOKL, prevOKD bool
+		ri := 0
 		for c0 := f; c0+w+f <= n; c0 += st {
+			if runs != nil {
+				// Past run ri (and one step beyond it, where the last
+				// local maximum is emitted): on to the next run.
+				for ri < len(runs) && c0 >= runs[ri][1]+st {
+					ri++
+				}
+				if ri == len(runs) {
+					break
+				}
+				if a := runs[ri][0]; c0+w <= a {
+					// The box touches no run before a−w+1: jump there on the
+					// grid, in the quick-reject state.
+					c0 = f + (a-w+1-f+st-1)/st*st
+					if c0+w+f > n {
+						break
+					}
+					prevL, prevD, prev2L, prev2D = 0, 0, 0, 0
+					prevOKL, prevOKD = false, false
+				}
+			}
 			pa, pb, pc, pd := P[c0-f], P[c0], P[c0+w], P[c0+w+f]
 			mc := (pc - pb) * invW
 			ml := (pb - pa) * invF

@@ -66,6 +66,7 @@ type Classical struct {
 	scratch   []float64 // for medians
 	chans     []selector
 	perBand   []float64 // per-band support of the chosen and the second line
+	runs      [][2]int  // stretches of a chroma profile above the contrast threshold
 	profile   []float64
 	gmax      []float64
 	prefix    []float64

@@ -45,7 +45,10 @@ const (
 //     with its confidence halved: two detectors that disagree are not to
 //     be trusted;
 //   - classical found nothing and the fallback's measurement passed the
-//     gate: the fallback's measurement (Method "cnn"). The fallback bridges
+//     gate and covers at least three quarters of the lower half of the
+//     frame (the rows guidance steers by; a line that ends or starts in
+//     them is for the classical detector to judge): the fallback's
+//     measurement (Method "cnn"). The fallback bridges
 //     one unbroken stretch only: the first frame in which classical finds
 //     nothing and the fallback has no measurement that passes the gate
 //     ends the bridge, and the fallback is not used alone again until the
@@ -191,6 +194,8 @@ func (f *Fused) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	}
 	switch {
 	case gated:
+	case !coversNear(c.Points, float64(img.Rows())):
+		gated, why = true, "it does not see the line over the near half of the frame"
 	case f.broken:
 		gated, why = true, "the bridge on the cnn alone failed; waiting for a confident classical measurement"
 	case f.bridge >= maxBridge:
@@ -205,6 +210,20 @@ func (f *Fused) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	f.FallbackUsed++
 	f.bridge++
 	return c
+}
+
+// coversNear reports whether the centreline pts reach from the bottom
+// eighth of a frame h rows high up to at least 5/8 of its height: three
+// quarters of its lower half.
+func coversNear(pts []vision.Point, h float64) bool {
+	if len(pts) == 0 {
+		return false
+	}
+	lo, hi := pts[0].Y, pts[0].Y
+	for _, p := range pts {
+		lo, hi = math.Min(lo, p.Y), math.Max(hi, p.Y)
+	}
+	return hi >= 0.875*h && lo <= 0.625*h
 }
 
 func joinReason(a, b string) string {

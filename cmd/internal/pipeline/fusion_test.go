@@ -55,6 +55,13 @@ func TestFusionRule(t *testing.T) {
 			d.HeadingDeg = 20
 			return d
 		}(), track(300), 0, "classical", false, 0, 1},
+		// The line ends in the near rows (the end of the line, a gap
+		// ahead): the CNN alone may not say it is still there.
+		"classical finds nothing, cnn sees only the near end": {none, func() vision.Detection {
+			d := line(300, 0.8, "cnn")
+			d.Points[1].Y = 380
+			return d
+		}(), track(300), 0, "classical", false, 0, 1},
 		"unsure classical, cnn agrees":          {line(300, 0.3, "classical"), line(302, 0.8, "cnn"), track(300), 0, "fused", true, 0.45, 1},
 		"unsure classical, cnn agrees weakly":   {line(300, 0.3, "classical"), line(302, 0.2, "cnn"), track(300), 0, "fused", true, 0.3, 1},
 		"unsure classical, cnn agrees no track": {line(300, 0.3, "classical"), line(302, 0.8, "cnn"), vision.Hint{}, 0, "fused", true, 0.45, 1},

@@ -18,13 +18,17 @@
 //
 // Detector turns the probabilities into a vision.Detection: each row's
 // centre is the probability-weighted mean of its best cell and the two
-// neighbours, a weighted least-squares curve (straight for fewer than 5
-// rows, else quadratic) through the rows gives the points, offset and
-// heading (conventions of package vision), and the confidence combines the
-// rows' peak probabilities, how many rows saw the stripe and how well they
-// agree with the curve (see Detector.Detect). Row gives each anchor row's
-// own confidence. WidthPx is always 0: the network does not measure width.
-// The Hint is not used.
+// neighbours; rows count only when that mass is at least MinRowConf; a
+// weighted least-squares curve (straight for fewer than 5 rows, else
+// quadratic) is fitted robustly (the row farthest off the curve is dropped
+// while it lies more than one cell away) and must have MinRows rows on it,
+// on both sides of the reference row. The curve gives the points, offset
+// and heading (conventions of package vision); the confidence combines
+// the rows' peak probabilities, how many rows saw the stripe and how well
+// they agree with the curve (see Detector.Detect). Row gives each anchor
+// row's own reading. WidthPx is always 0: the network does not measure
+// width. The Hint is not used here: pipeline.Fused checks the result
+// against the tracker's prediction and decides whether it may count.
 //
 // # Files and OpenCV
 //
@@ -64,6 +68,7 @@
 //
 //	hewline train -o site.onnx -seed 1 -site aisle-c.mkv -site loading-bay.mkv
 //
+// (arguments after the flags are site recordings too: -site rec/*.avi)
 // and point the site configuration at site.onnx. Only frames the classical
 // detector rated at least -site-min-conf (0.8) are used, one in
 // -site-every (5); check the log line per clip for how many were taken.
@@ -82,7 +87,10 @@
 // 0.654 (exact cell) and 0.824 within one cell (the validation set holds
 // the degraded frames too; one cell is 20 px at 640 wide).
 // The model's metadata records the command, seed and these figures; -o and
-// -log do not change the weights.
+// -log do not change the weights. It was trained at commit 648d1e5: the
+// renderer has gained scenarios since, so SynthSamples draws other frames
+// and the same command now gives other weights; check out that commit to
+// reproduce the file exactly.
 //
 // This detector is not a safety function: it is a second opinion for the
 // tracker, whose confidence gate and fail-safe alarm stay in charge.

@@ -312,3 +312,36 @@ func rowError(d vision.Detection, truthX func(y float64) (float64, bool)) (float
 	}
 	return sum / float64(n), n
 }
+
+// TestDetectorEndOfLine: a stripe that ends below the reference row (the
+// end of the line, a gap ahead of the near rows) must not be reported:
+// its offset at the reference row would be an extrapolation, and the
+// fail-safe is expected to fire there. The same stripe running on
+// through the frame is found. (A rule of this package, not a standard.)
+func TestDetectorEndOfLine(t *testing.T) {
+	// Reference row at half the height (240): a stripe over the near
+	// 45 % is seen on four anchor rows, all below it.
+	d := shippedDetector(t, Config{RefRowFrac: 0.5})
+	defer d.Close()
+	for name, tc := range map[string]struct {
+		length float64
+		want   bool
+	}{
+		"runs on":               {1, true},
+		"ends in the near 45 %": {0.45, false},
+	} {
+		t.Run(name, func(t *testing.T) {
+			sc := Scene{W: 640, H: 480, Floor: [3]float64{110, 115, 118}, Tape: [3]float64{20, 200, 235}, Texture: 10, TextureCell: 20,
+				Present: true, X0: 320, Length: tc.length, WidthNear: 50, WidthFar: 30, Gain: 1, Seed: 3}
+			img := renderScene(t, sc)
+			defer img.Close()
+			det := d.Detect(img, vision.Hint{})
+			if det.Found != tc.want {
+				t.Errorf("found %v (reason %q, confidence %.2f), want %v", det.Found, det.Reason, det.Confidence, tc.want)
+			}
+			if det.Found && math.Abs(det.RefRow-240) > 1e-9 {
+				t.Errorf("reference row %.1f, want 240 (0.5 of 480)", det.RefRow)
+			}
+		})
+	}
+}

@@ -35,7 +35,7 @@ type fallbackRow struct {
 func runCNNCompare(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs := newFlags("cnn-compare", "[options]", stderr)
 	out := fs.String("out", "hewline-cnn-compare", "output `DIR` for clips, truth files and the two track logs per scenario")
-	scen := fs.String("scenario", "all", "comma-separated built-in `SCENARIOS` (see hewline demo -list), or all")
+	scen := fs.String("scenario", "all", "comma-separated built-in `SCENARIOS` (see hewline demo -list), or all (every stripe scene: the fallback reads one stripe, not a lane)")
 	reuse := fs.Bool("reuse", false, "reuse clips and truth files already in -out instead of rendering them again")
 	jobs := fs.Int("jobs", 0, "scenarios processed at once (0 = one per core)")
 	readme := fs.String("readme", "", "also write the table into `FILE` between its <!-- cnn:begin --> and <!-- cnn:end --> lines")
@@ -51,7 +51,12 @@ func runCNNCompare(ctx context.Context, args []string, stdout, stderr io.Writer)
 	}
 	names := strings.Split(*scen, ",")
 	if *scen == "all" {
-		names = synth.Names()
+		names = names[:0]
+		for _, n := range synth.Names() {
+			if sc, err := synth.Lookup(n); err == nil && sc.Follow != synth.FollowLane {
+				names = append(names, n)
+			}
+		}
 	}
 	for i, n := range names {
 		names[i] = strings.TrimSpace(n)

@@ -7,6 +7,7 @@ import "fmt"
 //
 //	Seeking   ──line seen continuously for ReacquireFor──▶ Holding
 //	Seeking   ──no trusted line for FailSafeAfter since start──▶ Lost
+//	Seeking   ──no lock within ReacquireFor+FailSafeAfter of the start──▶ Lost
 //	Holding   ──frame without a usable measurement──▶ Coasting
 //	Coasting  ──2 trusted measurements in a row──▶ Holding
 //	Coasting  ──no trusted measurement for FailSafeAfter──▶ Lost
@@ -19,7 +20,8 @@ type State int
 
 const (
 	// Seeking: no lock yet since start (or Reset). Not trusted; the
-	// alarm is off until FailSafeAfter has passed without a lock.
+	// alarm is off until FailSafeAfter has passed without a trusted
+	// measurement, or ReacquireFor+FailSafeAfter without a lock.
 	Seeking State = iota
 	// Holding: locked, and this frame's measurement was used.
 	Holding

@@ -72,6 +72,7 @@ type Tracker struct {
 
 	lastFrame   time.Duration // latest Update
 	lastTrusted time.Duration // latest trusted measurement, or the start
+	startT      time.Duration // first time seen since New or Reset
 	conf        float64       // confidence of the latest trusted measurement
 	note        string        // why the latest frame was not used
 	lostReason  string        // why the fail-safe turned on
@@ -202,7 +203,7 @@ func (t *Tracker) Predict(now time.Duration) (offset, heading, offsetSigma, head
 func (t *Tracker) advance(now time.Duration) bool {
 	if !t.started {
 		t.started = true
-		t.last, t.lastFrame, t.lastTrusted, t.filterT = now, now, now, now
+		t.last, t.lastFrame, t.lastTrusted, t.filterT, t.startT = now, now, now, now, now
 		return true
 	}
 	if now < t.last {
@@ -218,7 +219,12 @@ func (t *Tracker) advance(now time.Duration) bool {
 func (t *Tracker) checkTimers(now time.Duration) {
 	switch t.state {
 	case Seeking, Holding, Coasting:
-		if now-t.lastTrusted >= t.cfg.FailSafeAfter {
+		// Seeking also counts from the start: acquisition runs that keep
+		// restarting (the line seen, but never steadily) must not keep
+		// the alarm off for ever. A first lock takes ReacquireFor; allow
+		// FailSafeAfter beyond that.
+		if now-t.lastTrusted >= t.cfg.FailSafeAfter ||
+			(t.state == Seeking && now-t.startT >= t.cfg.ReacquireFor+t.cfg.FailSafeAfter) {
 			t.toLost(t.lossReason(now))
 			return
 		}
@@ -242,7 +248,7 @@ func (t *Tracker) lossReason(now time.Duration) string {
 	case now-t.lastFrame >= t.cfg.FailSafeAfter:
 		return "camera stalled: no frame for " + secs(now-t.lastFrame)
 	case t.state == Seeking:
-		return "no lock for " + secs(now-t.lastTrusted) + " since start"
+		return "no lock for " + secs(now-t.startT) + " since start"
 	case t.note != "":
 		return "no trusted measurement for " + secs(now-t.lastTrusted) + " (" + t.note + ")"
 	default:

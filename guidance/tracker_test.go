@@ -408,6 +408,30 @@ func TestSeekingWithoutLineRaisesAlarm(t *testing.T) {
 	}
 }
 
+// TestSeekingWithUnsteadyLineRaisesAlarm: a line that is seen but jumps
+// between two places every 100 ms never gives a steady acquisition run of
+// ReacquireFor. The tracker must not sit in Seeking with the alarm off:
+// the fail-safe also counts from the start: no lock within ReacquireFor +
+// FailSafeAfter of the start → Lost.
+func TestSeekingWithUnsteadyLineRaisesAlarm(t *testing.T) {
+	cfg := guidance.DefaultConfig()
+	tr := newTracker(t, cfg)
+	var e guidance.Estimate
+	for now := time.Duration(0); now < time.Second; now += 33 * ms {
+		off := 0.0
+		if now/(100*ms)%2 == 1 {
+			off = 120 // far outside the gate of a run at 0
+		}
+		e = tr.Update(now, good(off, 0))
+		if e.Tracking {
+			t.Fatalf("at %v: tracking an unsteady line: %+v", now, e)
+		}
+		if now >= cfg.ReacquireFor+cfg.FailSafeAfter && !e.Alarm {
+			t.Fatalf("at %v since start, never locked: %+v, want the alarm", now, e)
+		}
+	}
+}
+
 func TestLowConfidenceIsNotTrusted(t *testing.T) {
 	// A line reported at confidence 0.3 (below both thresholds) never
 	// locks, and the alarm comes on after FailSafeAfter.

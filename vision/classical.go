@@ -44,9 +44,15 @@ const (
 //     gated by the tracker's prediction when the Hint is valid, then by
 //     weighted least squares on the inliers, rejecting candidates whose
 //     width disagrees with the fitted width profile;
-//  5. score the result: share of bands along the line that support it,
-//     span, residual, contrast, and whether a second, disjoint line is
-//     nearly as strong (ambiguity) or the line is far from the prediction.
+//  5. choose among the channels' lines by their support summed over every
+//     channel (tape that is both lighter and coloured beats a tyre mark
+//     that is only darker), keeping only lines that reach the reference
+//     row; score the result: share of bands along the line that support
+//     it, span, residual, contrast, and whether another line is nearly as
+//     strong where the two differ (ambiguity; a line that does not narrow
+//     with the chosen line's perspective, such as a rack upright above
+//     the horizon, is not on the floor and does not count), or the line is
+//     far from the prediction.
 //
 // A Classical is not safe for concurrent use; use one per goroutine.
 type Classical struct {

@@ -185,12 +185,13 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	if right != nil {
 		m.Right = curvePoints(fr, l, right)
 	}
-	// The lane must be seen near the vehicle: if no boundary supports
-	// at least half of the near half's bands, the lines are farther on
-	// (the near stretch is bare) and the centre there is a guess.
-	if cover := nearCover(l, left, right); cover < 0.5 {
-		d.Confidence *= cover
-		d.Reason = "no lane line in the near half"
+	// The lane must be seen near the vehicle: where the boundaries
+	// support less than 70 % of the near half's bands, the lines are
+	// farther on (the near stretch is bare) and the centre there is a
+	// guess; at 30 % or less it is not trusted at all.
+	if cover := nearCover(l, left, right); cover < 0.7 {
+		d.Confidence *= clamp01((cover - 0.3) / 0.4)
+		d.Reason = "no lane line in much of the near half"
 	}
 	if both {
 		m.WidthPx = (right.centre.x(yRefW) - left.centre.x(yRefW)) / fr.sx

@@ -42,6 +42,11 @@ type Estimate struct {
 	// Gated is true when this frame's measurement was rejected by the
 	// chi-square innovation gate.
 	Gated bool
+	// Measured is true when this frame's measurement was accepted into
+	// the track. While Tracking without it (Coasting on a missing,
+	// unsure or gated measurement) the estimate is the filter's
+	// prediction alone.
+	Measured bool
 	// Reason says why the estimate is not Holding, or why the alarm is
 	// on, e.g. "no trusted measurement for 0.31 s", "camera stalled: no
 	// frame for 0.30 s". Empty while Holding normally.
@@ -90,7 +95,8 @@ type Tracker struct {
 	// measurements that agree with each other.
 	cand      candidate
 	lastGated bool
-	consec    int // consecutive accepted measurements while locked
+	measured  bool // this call's measurement was accepted
+	consec    int  // consecutive accepted measurements while locked
 }
 
 // holdAfter is how many consecutive accepted measurements take a Coasting
@@ -138,7 +144,7 @@ func (t *Tracker) Reset() {
 // Update takes one frame's measurement taken at now. Call it once per
 // frame, whether or not the detector found anything.
 func (t *Tracker) Update(now time.Duration, m Measurement) Estimate {
-	t.lastGated = false
+	t.lastGated, t.measured = false, false
 	if !t.advance(now) {
 		return t.estimate(t.last)
 	}
@@ -156,7 +162,7 @@ func (t *Tracker) Update(now time.Duration, m Measurement) Estimate {
 // it (for example every 50 ms) so that the fail-safe fires on time even
 // when the camera stops delivering frames.
 func (t *Tracker) Tick(now time.Duration) Estimate {
-	t.lastGated = false
+	t.lastGated, t.measured = false, false
 	if !t.advance(now) {
 		return t.estimate(t.last)
 	}
@@ -173,7 +179,7 @@ func (t *Tracker) Tick(now time.Duration) Estimate {
 // fail-safe turns on at once with reason as the Reason, and the line must
 // be reacquired for ReacquireFor before guidance resumes.
 func (t *Tracker) Fault(now time.Duration, reason string) Estimate {
-	t.lastGated = false
+	t.lastGated, t.measured = false, false
 	if t.advance(now) {
 		t.toLost(reason)
 	}
@@ -339,6 +345,7 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		t.consec = t.cfg.StepConfirmFrames
 		t.lastTrusted = now
 		t.conf = m.Confidence
+		t.measured = true
 		t.note = fmt.Sprintf("line moved: track re-locked after %d frames", t.cfg.StepConfirmFrames)
 	}
 }
@@ -396,6 +403,7 @@ func (t *Tracker) lock(now time.Duration, m Measurement) {
 	t.runActive = false
 	t.lastTrusted = now
 	t.conf = m.Confidence
+	t.measured = true
 	t.note = ""
 	t.lostReason = ""
 }
@@ -412,6 +420,7 @@ func (t *Tracker) accept(now time.Duration, m Measurement) {
 	}
 	t.lastTrusted = now
 	t.conf = m.Confidence
+	t.measured = true
 }
 
 func (t *Tracker) predictTo(now time.Duration) {
@@ -428,6 +437,7 @@ func (t *Tracker) estimate(now time.Duration) Estimate {
 		Tracking: t.state.Trusted(),
 		Alarm:    t.state.Alarmed(),
 		Gated:    t.lastGated,
+		Measured: t.measured && t.state.Trusted(),
 	}
 	if t.off.Ready {
 		dt := (now - t.filterT).Seconds()

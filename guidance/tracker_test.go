@@ -611,3 +611,41 @@ func TestLateFrameCannotHideALoss(t *testing.T) {
 		t.Fatalf("first frame after a 0.53 s gap: %+v", e)
 	}
 }
+
+// TestMeasuredSaysWhetherTheFrameWasUsed: Measured is true exactly on the
+// frames whose measurement went into the track, so that a log can show the
+// prediction on the others (coasting through a missing, unsure or gated
+// frame).
+func TestMeasuredSaysWhetherTheFrameWasUsed(t *testing.T) {
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, tr, 10, 2, time.Second)
+	steps := []struct {
+		name string
+		m    guidance.Measurement
+		want bool
+	}{
+		{"steady", good(10, 2), true},
+		{"missing", guidance.Measurement{}, false},
+		{"unsure", guidance.Measurement{Valid: true, OffsetPx: 10, HeadingDeg: 2, Confidence: 0.01}, false},
+		{"far off (gated)", good(200, 2), false},
+		{"back", good(10, 2), true},
+	}
+	for _, s := range steps {
+		e := tr.Update(now, s.m)
+		now += 33 * ms
+		if !e.Tracking {
+			t.Fatalf("%s: not tracking: %+v", s.name, e)
+		}
+		if e.Measured != s.want {
+			t.Errorf("%s: Measured = %v, want %v (%+v)", s.name, e.Measured, s.want, e)
+		}
+	}
+	if e := tr.Tick(now); e.Measured {
+		t.Errorf("a watchdog tick says Measured: %+v", e)
+	}
+	// Seeking: a measurement that only starts a run is not in a track.
+	tr = newTracker(t, guidance.DefaultConfig())
+	if e := tr.Update(0, good(10, 2)); e.Measured {
+		t.Errorf("first frame of an acquisition says Measured: %+v", e)
+	}
+}

@@ -7,13 +7,16 @@
 //     TuSimple lane benchmark's 20 px at 1280 px (its evaluate/lane.py).
 //   - A frame's error is the mean |x_detected(y) − x_true(y)| over the truth
 //     rows in the near (lower) half of the image; rows the detection does
-//     not cover count as misses. A frame is correct when it claims tracking
+//     not cover count as misses. The line judged is the one guidance ran
+//     on: the record's predicted_points when it tracked on the filter's
+//     prediction alone (coasting), its points otherwise. A frame is correct when it claims tracking
 //     and at least 85 % of those rows lie within the tolerance (TuSimple's
 //     85 % point-match rule).
 //   - Recall: correct frames / frames where the truth says the line is
 //     visible.
 //   - False track: a frame that claims tracking where the truth says no
-//     line is visible, or whose error exceeds 30 px at 640 (scaled).
+//     line is visible, or whose error exceeds 30 px at 640 (scaled). The
+//     reliability table uses the detector's own points and confidence.
 //   - Alarm latency: for each loss of the line (visible → not visible),
 //     the time from the first invisible frame to the first frame with the
 //     alarm on; a loss with no alarm before the line returns (or the clip
@@ -157,7 +160,7 @@ func Clip(name string, h truth.Header, frames []truth.Frame, records []tracklog.
 			continue
 		}
 		r.VisibleFrames++
-		err, frac, ok := frameError(tf, rec, h.Height, tol)
+		err, frac, ok := frameError(tf, guided(rec), h.Height, tol)
 		if rec.Tracking {
 			r.TrackedVisible++
 			if ok {
@@ -171,6 +174,9 @@ func Clip(name string, h truth.Header, frames []truth.Frame, records []tracklog.
 			}
 		}
 		if len(rec.Points) > 0 {
+			if len(rec.PredictedPoints) > 0 {
+				_, frac, _ = frameError(tf, rec.Points, h.Height, tol)
+			}
 			b := int(math.Min(9, math.Max(0, rec.MeasConfidence*10)))
 			r.Bins[b].N++
 			if frac >= MatchFraction {
@@ -184,9 +190,18 @@ func Clip(name string, h truth.Header, frames []truth.Frame, records []tracklog.
 	return r, nil
 }
 
-// frameError compares one frame's detected centreline with the truth over
-// the near half. ok is false when the detection covers none of those rows.
-func frameError(tf truth.Frame, rec tracklog.Record, height int, tol float64) (meanErr, fracWithin float64, ok bool) {
+// guided is the centreline guidance ran on in rec: the predicted line while
+// it coasted on the filter alone, the detected one otherwise.
+func guided(rec tracklog.Record) [][2]float64 {
+	if rec.Tracking && len(rec.PredictedPoints) > 0 {
+		return rec.PredictedPoints
+	}
+	return rec.Points
+}
+
+// frameError compares a centreline with the frame's truth over the near
+// half. ok is false when the line covers none of those rows.
+func frameError(tf truth.Frame, line [][2]float64, height int, tol float64) (meanErr, fracWithin float64, ok bool) {
 	near := float64(height) / 2
 	n, within, covered := 0, 0, 0
 	sum := 0.0
@@ -195,7 +210,7 @@ func frameError(tf truth.Frame, rec tracklog.Record, height int, tol float64) (m
 			continue
 		}
 		n++
-		x, has := interpX(rec.Points, p[1])
+		x, has := interpX(line, p[1])
 		if !has {
 			continue
 		}

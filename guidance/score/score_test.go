@@ -80,6 +80,44 @@ func TestWorkedExample(t *testing.T) {
 	}
 }
 
+// TestCoastingFramesAreJudgedOnThePrediction: while guidance coasts on the
+// filter alone, the record's predicted_points are the line it used; the
+// scorer judges that line, and the reliability table still judges the
+// detector's own points at its own confidence.
+func TestCoastingFramesAreJudgedOnThePrediction(t *testing.T) {
+	h := truth.Header{Width: 640, Height: 480, FPS: 30}
+	cases := map[string]struct {
+		rec                    tracklog.Record
+		wantCorrect, wantFalse int
+		wantBinWithin          int // of the one frame in bin 8
+	}{
+		// The detector lost the line (no points); the prediction is on it.
+		"prediction on the line, no detection": {tracklog.Record{Tracking: true, PredictedPoints: vertical(322)}, 1, 0, -1},
+		// The prediction has drifted 40 px off: a false track, even
+		// though the gated detection itself was right.
+		"prediction off, gated detection right": {tracklog.Record{Tracking: true, PredictedPoints: vertical(360), Points: vertical(320), MeasConfidence: 0.85}, 0, 1, 1},
+		// A detection 50 px off that the gate refused; guidance stayed on the line.
+		"prediction on, gated detection off": {tracklog.Record{Tracking: true, PredictedPoints: vertical(321), Points: vertical(370), MeasConfidence: 0.85}, 1, 0, 0},
+		// Not tracking: a stray predicted line never counts.
+		"not tracking": {tracklog.Record{PredictedPoints: vertical(320)}, 0, 0, -1},
+	}
+	for name, tc := range cases {
+		t.Run(name, func(t *testing.T) {
+			tf := []truth.Frame{{Frame: 0, Visible: true, Points: vertical(320)}}
+			r, err := score.Clip(name, h, tf, []tracklog.Record{tc.rec})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if r.CorrectFrames != tc.wantCorrect || r.FalseTracks != tc.wantFalse {
+				t.Errorf("correct %d false %d, want %d and %d", r.CorrectFrames, r.FalseTracks, tc.wantCorrect, tc.wantFalse)
+			}
+			if tc.wantBinWithin >= 0 && (r.Bins[8].N != 1 || r.Bins[8].Within != tc.wantBinWithin) {
+				t.Errorf("reliability bin 0.8: %+v, want 1 frame, %d within", r.Bins[8], tc.wantBinWithin)
+			}
+		})
+	}
+}
+
 func TestFalseAndMissedAlarms(t *testing.T) {
 	h := truth.Header{Width: 320, Height: 480, FPS: 10}
 	var tf []truth.Frame

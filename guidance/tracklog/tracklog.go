@@ -62,6 +62,12 @@ type Record struct {
 	OffsetMM        *float64 `json:"offset_mm,omitempty"`
 	HeadingFloorDeg *float64 `json:"heading_floor_deg,omitempty"`
 	WidthMM         *float64 `json:"width_mm,omitempty"`
+	// PredictedPoints is the centreline guidance ran on when it tracked
+	// on the filter's prediction alone (coasting through a frame whose
+	// measurement was missing, unsure or gated): the last accepted line
+	// moved with the filtered offset and heading. Points stays the
+	// detector's own view of the frame.
+	PredictedPoints [][2]float64 `json:"predicted_points,omitempty"`
 	// Lane mode (Header.Follow "lane"): Points, OffsetPx and HeadingDeg
 	// are the lane's centre; LeftPoints and RightPoints are the boundary
 	// lines the detector saw (a side not seen this frame is absent),
@@ -102,6 +108,7 @@ type Writer struct {
 	pts       []byte
 	cpts      []byte
 	side      []byte
+	pred      []byte
 	sum       Summary
 	prevAlarm bool
 	closed    bool
@@ -171,6 +178,10 @@ func (w *Writer) Write(r *Record) error {
 	}
 	if r.Reason != "" {
 		e = e.Str("reason", r.Reason)
+	}
+	if len(r.PredictedPoints) > 0 {
+		w.pred = appendPoints(w.pred[:0], r.PredictedPoints)
+		e = e.RawJSON("predicted_points", w.pred)
 	}
 	if len(r.LeftPoints) > 0 {
 		w.pts = appendPoints(w.pts[:0], r.LeftPoints)

@@ -43,6 +43,12 @@ type Result struct {
 	Est guidance.Estimate
 	// Cue is what outputs may do with Est (guidance.Decide).
 	Cue guidance.CueDecision
+	// Predicted is the centreline guidance runs on when it is tracking on
+	// the filter's prediction alone (Est.Tracking without Est.Measured):
+	// the last accepted line moved with the filtered offset and heading.
+	// Nil when this frame's measurement was used or there is no track.
+	// It is the result's own: a sink may keep it.
+	Predicted []vision.Point
 	// Floor holds floor-plane values when a calibration is in force.
 	Floor *FloorValues
 	// Captured is the wall time the frame was read (live), Decided the
@@ -227,6 +233,7 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 		defer close(detectDone)
 		defer close(results)
 		var last capture.FrameInfo
+		var pred predictor
 		first := true
 		for it := range frames {
 			r := &it.res
@@ -241,6 +248,7 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 				Valid: r.Det.Found, OffsetPx: r.Det.OffsetPx, HeadingDeg: r.Det.HeadingDeg, Confidence: r.Det.Confidence,
 			})
 			r.Cue = guidance.Decide(r.Est)
+			r.Predicted = pred.next(r.Det, r.Est)
 			if cfg.Floor != nil && r.Det.Found {
 				if fv, ok := cfg.Floor.Floor(r.Det); ok {
 					r.Floor = &fv

@@ -24,6 +24,7 @@ type LogSink struct {
 	W           RecordWriter
 	rec         tracklog.Record
 	left, right [][2]float64 // reused boundary buffers
+	pred        [][2]float64 // reused predicted-line buffer
 }
 
 // points converts detector points into the log's pairs, reusing dst.
@@ -77,6 +78,10 @@ func (s *LogSink) Frame(r *Result, _ gocv.Mat) error {
 			}
 			rec.LanePx = ln.WidthPx
 		}
+	}
+	if len(r.Predicted) > 0 {
+		s.pred = points(s.pred, r.Predicted)
+		rec.PredictedPoints = s.pred
 	}
 	if r.Floor != nil && r.Est.Tracking {
 		off, head, w := r.Floor.OffsetMM, r.Floor.HeadingDeg, r.Floor.WidthMM
@@ -148,6 +153,7 @@ var (
 	red    = color.RGBA{255, 0, 0, 0}
 	white  = color.RGBA{255, 255, 255, 0}
 	black  = color.RGBA{0, 0, 0, 0}
+	cyan   = color.RGBA{0, 200, 255, 0}
 )
 
 // Annotate draws r onto img (BGR) in place.
@@ -155,8 +161,10 @@ func Annotate(img *gocv.Mat, r *Result) {
 	w, h := img.Cols(), img.Rows()
 	scale := float64(w) / 640
 	th := max(1, int(2*scale+0.5))
+	// The detection is green when guidance used it, yellow otherwise;
+	// while guidance coasts on the filter, its predicted line is cyan.
 	col := yellow
-	if r.Est.Tracking {
+	if r.Est.Tracking && len(r.Predicted) == 0 {
 		col = green
 	}
 	polyline := func(pts []vision.Point, c color.RGBA) {
@@ -170,6 +178,7 @@ func Annotate(img *gocv.Mat, r *Result) {
 		polyline(ln.Right, white)
 	}
 	polyline(r.Det.Points, col)
+	polyline(r.Predicted, cyan)
 	if r.Det.Found {
 		y := int(r.Det.RefRow)
 		gocv.Line(img, image.Pt(w/2, y-int(8*scale)), image.Pt(w/2, y+int(8*scale)), white, th)

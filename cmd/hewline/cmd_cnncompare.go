@@ -39,6 +39,7 @@ func runCNNCompare(ctx context.Context, args []string, stdout, stderr io.Writer)
 	reuse := fs.Bool("reuse", false, "reuse clips and truth files already in -out instead of rendering them again")
 	jobs := fs.Int("jobs", 0, "scenarios processed at once (0 = one per core)")
 	readme := fs.String("readme", "", "also write the table into `FILE` between its <!-- cnn:begin --> and <!-- cnn:end --> lines")
+	size := fs.String("size", "", "render every scene at this frame `SIZE` (WxH, e.g. 320x240) instead of its own (640x480)")
 	o := replayFlags(fs)
 	if err := parseFlags(fs, args); err != nil {
 		return err
@@ -64,6 +65,14 @@ func runCNNCompare(ctx context.Context, args []string, stdout, stderr io.Writer)
 			return usagef("%v (try: hewline demo -list)", err)
 		}
 	}
+	var w, h int
+	if *size != "" {
+		sz, err := parseSizes(*size)
+		if err != nil || len(sz) != 1 {
+			return usagef("-size %q: want one WxH", *size)
+		}
+		w, h = sz[0][0], sz[0][1]
+	}
 	if err := os.MkdirAll(*out, 0o755); err != nil {
 		return err
 	}
@@ -71,8 +80,13 @@ func runCNNCompare(ctx context.Context, args []string, stdout, stderr io.Writer)
 	off.cnn, on.cnn = false, true
 	rows, errs := report.ParallelMap(ctx, names, *jobs, func(ctx context.Context, name string) (*fallbackRow, error) {
 		sc, _ := synth.Lookup(name)
-		clip := filepath.Join(*out, name+".avi")
-		truthPath := filepath.Join(*out, name+".truth.ndjson")
+		stem := name
+		if w > 0 {
+			sc = sc.Resized(w, h)
+			stem = fmt.Sprintf("%s@%dx%d", name, w, h)
+		}
+		clip := filepath.Join(*out, stem+".avi")
+		truthPath := filepath.Join(*out, stem+".truth.ndjson")
 		if !*reuse || !exists(clip) || !exists(truthPath) {
 			if err := synth.WriteClip(sc, clip, truthPath); err != nil {
 				return nil, fmt.Errorf("render %s: %w", name, err)
@@ -84,7 +98,7 @@ func runCNNCompare(ctx context.Context, args []string, stdout, stderr io.Writer)
 			tag  string
 			dest **score.Result
 		}{{&off, "classical", &row.off}, {&on, "fallback", &row.on}} {
-			logPath := filepath.Join(*out, name+"."+run.tag+".track.ndjson")
+			logPath := filepath.Join(*out, stem+"."+run.tag+".track.ndjson")
 			res, err := replayClip(ctx, clip, logPath, "", run.o, io.Discard)
 			if err != nil {
 				return nil, fmt.Errorf("%s (%s): %w", name, run.tag, err)

@@ -46,6 +46,14 @@ func newWork(a Arch) *work {
 // forward runs the network on one input of InH×InW values and leaves the
 // per-row probabilities in wk.out (Rows×Classes). It does not retain in.
 func (m *Model) forward(wk *work, in []float32) []float32 {
+	m.logits(wk, in)
+	softmaxRows(wk.out, m.Arch.Classes())
+	return wk.out
+}
+
+// logits runs the network up to the last dense layer and leaves the
+// Rows×Classes logits in wk.out (before the per-row softmax).
+func (m *Model) logits(wk *work, in []float32) []float32 {
 	a := m.Arch
 	x := in
 	for i := range a.Conv {
@@ -59,7 +67,6 @@ func (m *Model) forward(wk *work, in []float32) []float32 {
 	denseForward(m.FC1W.Data, m.FC1B.Data, x, wk.hid)
 	relu(wk.hid)
 	denseForward(m.FC2W.Data, m.FC2B.Data, wk.hid, wk.out)
-	softmaxRows(wk.out, a.Classes())
 	return wk.out
 }
 

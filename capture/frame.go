@@ -15,6 +15,18 @@ type FrameInfo struct {
 	T time.Duration
 	// Size is the frame's width and height in pixels.
 	Size image.Point
+	// Before is set only when replaying a recording: what the live run's
+	// tracker was told between the previous frame and this one, in order
+	// (watchdog ticks and faults), so that a replay repeats them.
+	Before []TrackerEvent
+}
+
+// TrackerEvent is something a live run's tracker was told apart from a
+// frame: a watchdog tick (Fault empty) or a fault with its reason (a
+// camera stall or loss). T is the tracker's time.
+type TrackerEvent struct {
+	T     time.Duration
+	Fault string
 }
 
 // SourceInfo describes a whole source.

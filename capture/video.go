@@ -31,6 +31,7 @@ type VideoFile struct {
 	done     error
 	// timestamps, when set, override both (a recording's sidecar).
 	timestamps []time.Duration
+	before     [][]TrackerEvent // UseEvents
 }
 
 // OpenVideo opens a video file. It checks the file in Go first (missing,
@@ -89,6 +90,11 @@ func OpenVideo(path string) (*VideoFile, error) {
 // sees the same times as the live run. Frames beyond len(ts) are an error.
 func (v *VideoFile) UseTimestamps(ts []time.Duration) { v.timestamps = ts }
 
+// UseEvents makes Read report before[i] as FrameInfo.Before of frame i (a
+// recording's tracker events, from its sidecar). The slices are shared
+// with the caller and must not be changed while v is read.
+func (v *VideoFile) UseEvents(before [][]TrackerEvent) { v.before = before }
+
 // Info describes the file.
 func (v *VideoFile) Info() SourceInfo { return v.info }
 
@@ -119,6 +125,9 @@ func (v *VideoFile) Read(dst *gocv.Mat) (FrameInfo, error) {
 			return FrameInfo{}, v.done
 		}
 		fi.T = v.timestamps[v.next]
+	}
+	if v.next < len(v.before) {
+		fi.Before = v.before[v.next]
 	}
 	v.next++
 	return fi, nil

@@ -371,6 +371,9 @@ func TestReadSidecarErrors(t *testing.T) {
 		{"gap in numbering", write("g.ndjson", hdr+`{"i":0,"t":0}`+"\n"+`{"i":2,"t":0.1}`+"\n"), capture.ErrUnreadable, 0},
 		{"last line cut by a crash", write("c.ndjson", hdr+`{"i":0,"t":0}`+"\n"+`{"i":1,"t":0.03`), nil, 1},
 		{"header only", write("h.ndjson", hdr), nil, 0},
+		{"tracker events in order", write("ev.ndjson", hdr+`{"i":0,"t":0}`+"\n"+`{"i":1,"t":0.3,"before":[{"t":0.1},{"t":0.25,"fault":"camera stalled"}]}`+"\n"), nil, 2},
+		{"tracker event after its frame", write("ea.ndjson", hdr+`{"i":0,"t":0,"before":[{"t":0.1}]}`+"\n"), capture.ErrUnreadable, 0},
+		{"tracker events out of order", write("eo.ndjson", hdr+`{"i":0,"t":0.3,"before":[{"t":0.2},{"t":0.1}]}`+"\n"), capture.ErrUnreadable, 0},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {

@@ -285,7 +285,11 @@ func (r *Recorder) Write(frame gocv.Mat, info capture.FrameInfo) error {
 		r.stop(fmt.Errorf("record: %w: %s: %v", ErrWriteFailed, r.clip, err))
 		return nil
 	}
-	line, _ := json.Marshal(SidecarFrame{I: r.inClip, Src: info.Index, T: info.T.Seconds(), Wall: r.opt.Now().UTC()})
+	sf := SidecarFrame{I: r.inClip, Src: info.Index, T: info.T.Seconds(), Wall: r.opt.Now().UTC()}
+	for _, e := range info.Before {
+		sf.Before = append(sf.Before, SidecarEvent{T: e.T.Seconds(), Fault: e.Fault})
+	}
+	line, _ := json.Marshal(sf)
 	if _, err := r.side.Write(append(line, '\n')); err != nil {
 		r.stop(fmt.Errorf("record: %w: %s: %v", ErrWriteFailed, r.side.Name(), err))
 		return nil

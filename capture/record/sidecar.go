@@ -33,7 +33,39 @@ type SidecarFrame struct {
 	Src  int       `json:"src"`
 	T    float64   `json:"t"`
 	Wall time.Time `json:"wall"`
+	// Before lists what the live tracker was told between the previous
+	// recorded frame and this one (watchdog ticks, faults), in order.
+	Before []SidecarEvent `json:"before,omitempty"`
 }
+
+// SidecarEvent is a watchdog tick (Fault empty) or a fault, at the
+// tracker's time T in seconds.
+type SidecarEvent struct {
+	T     float64 `json:"t"`
+	Fault string  `json:"fault,omitempty"`
+}
+
+// Events returns each frame's tracker events (for
+// capture.VideoFile.UseEvents); nil when the sidecar has none.
+func Events(frames []SidecarFrame) [][]capture.TrackerEvent {
+	var out [][]capture.TrackerEvent
+	for i, f := range frames {
+		if len(f.Before) == 0 {
+			continue
+		}
+		if out == nil {
+			out = make([][]capture.TrackerEvent, len(frames))
+		}
+		evs := make([]capture.TrackerEvent, len(f.Before))
+		for k, e := range f.Before {
+			evs[k] = capture.TrackerEvent{T: seconds(e.T), Fault: e.Fault}
+		}
+		out[i] = evs
+	}
+	return out
+}
+
+func seconds(s float64) time.Duration { return time.Duration(math.Round(s * float64(time.Second))) }
 
 // SidecarPath returns the sidecar of a clip: rec-0001.avi →
 // rec-0001.frames.ndjson.
@@ -51,7 +83,7 @@ func ReadSidecar(path string) ([]time.Duration, error) {
 	}
 	ts := make([]time.Duration, len(frames))
 	for i, f := range frames {
-		ts[i] = time.Duration(math.Round(f.T * float64(time.Second)))
+		ts[i] = seconds(f.T)
 	}
 	return ts, nil
 }
@@ -102,6 +134,11 @@ func ReadSidecarFull(path string) (SidecarHeader, []SidecarFrame, error) {
 		}
 		if math.IsNaN(f.T) || math.IsInf(f.T, 0) {
 			return h, nil, bad("bad time")
+		}
+		for k, e := range f.Before {
+			if math.IsNaN(e.T) || math.IsInf(e.T, 0) || e.T > f.T || (k > 0 && e.T < f.Before[k-1].T) {
+				return h, nil, bad(fmt.Sprintf("tracker event %d: time %v out of order (frame at %v)", k, e.T, f.T))
+			}
 		}
 		frames = append(frames, f)
 	}

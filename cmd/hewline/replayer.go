@@ -224,7 +224,11 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 	// A recording's sidecar gives the times the live run used.
 	if vf, ok := src.(*capture.VideoFile); ok {
 		if ts, err := record.ReadSidecar(record.SidecarPath(clip)); err == nil {
+			// The sidecar was just read whole; reading it again for the
+			// tracker events cannot fail differently.
+			_, frames, _ := record.ReadSidecarFull(record.SidecarPath(clip))
 			vf.UseTimestamps(ts)
+			vf.UseEvents(record.Events(frames))
 			info.Kind = "recording"
 		}
 	}

@@ -194,8 +194,10 @@ func TestRecordThenReplayRepeatsDecisions(t *testing.T) {
 	t.Logf("source frames dropped before detection: %d; decided frames not recorded: %d", pipelineDrops, len(all)-len(side))
 	// The recording is MJPEG, re-encoded from the decoded frames, so its
 	// pixels differ slightly from what the live detector saw; the sidecar
-	// gives the tracker the same times. Decisions must match except on
-	// frames right at a state change (±3 frames), and offsets within 2 px.
+	// gives the tracker the same times and repeats its watchdog ticks and
+	// faults. Decisions must match except on
+	// frames right at a state change (±3 frames), and offsets within 2 px
+	// (4 px while coasting).
 	states := map[string]bool{}
 	near := func(i int) bool {
 		for j := max(1, i-3); j <= min(len(a)-1, i+3); j++ {
@@ -216,7 +218,14 @@ func TestRecordThenReplayRepeatsDecisions(t *testing.T) {
 			}
 			continue
 		}
-		if d := a[i].OffsetPx - b[i].OffsetPx; a[i].Tracking && (d > 2 || d < -2) {
+		// While coasting, the filter extrapolates its rate, which the
+		// re-encoded pixels also shift a little, for up to the fail-safe
+		// time: 4 px there, 2 px on measured frames.
+		tol := 2.0
+		if a[i].State == "coasting" {
+			tol = 4
+		}
+		if d := a[i].OffsetPx - b[i].OffsetPx; a[i].Tracking && (d > tol || d < -tol) {
 			t.Errorf("frame %d: offset live %.3f replay %.3f", i, a[i].OffsetPx, b[i].OffsetPx)
 		}
 	}

@@ -334,11 +334,15 @@ func TestCameraLatencyAndDrops(t *testing.T) {
 }
 
 // TestCameraRecordingReplaysDecisions: a live run over the fake camera,
-// with a detector slower than the camera (so frames are dropped) and a 1 s
-// stall, records what guidance saw (pipeline.RecordSink). Replaying the
-// recording with the sidecar's times, as hewline replay does, gives every
-// recorded frame the same decision as the live run: state, trust, alarm
-// and offset. Recorded frames are matched to live ones through the
+// with a detector slower than the camera (so frames are dropped), a 1 s
+// stall and a 200 ms one, records what guidance saw (pipeline.RecordSink).
+// Replaying the recording with the sidecar's times and tracker events, as
+// hewline replay does, gives every recorded frame the same decision as the
+// live run: state, trust, alarm and offset. The 200 ms stall is longer than
+// the tracker's MaxFrameGap (150 ms) but shorter than the camera's stall
+// limit: only the live watchdog's ticks see it, and they put the track to
+// coasting, so the replay repeats the live decisions only by repeating
+// those ticks. Recorded frames are matched to live ones through the
 // sidecar's src field, so frames the recorder itself dropped cannot shift
 // the comparison.
 func TestCameraRecordingReplaysDecisions(t *testing.T) {
@@ -353,7 +357,9 @@ func TestCameraRecordingReplaysDecisions(t *testing.T) {
 		run := runCameraWith(t, 6*time.Second, det, nil, []pipeline.Sink{&pipeline.RecordSink{B: bg}},
 			capturetest.Frames(60, capturetest.MJPEG320),
 			capturetest.Stall(time.Second),
-			capturetest.Frames(60, capturetest.MJPEG320))
+			capturetest.Frames(60, capturetest.MJPEG320),
+			capturetest.Stall(200*time.Millisecond),
+			capturetest.Frames(30, capturetest.MJPEG320))
 		if err := bg.Close(); err != nil {
 			t.Fatal(err)
 		}
@@ -384,6 +390,7 @@ func TestCameraRecordingReplaysDecisions(t *testing.T) {
 		}
 		defer src.Close()
 		src.(*capture.VideoFile).UseTimestamps(ts)
+		src.(*capture.VideoFile).UseEvents(record.Events(side))
 		tr, err := guidance.NewTracker(run.tcfg)
 		if err != nil {
 			t.Fatal(err)

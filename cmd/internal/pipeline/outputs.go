@@ -8,6 +8,7 @@ import (
 	"gocv.io/x/gocv"
 
 	"github.com/hewline/hewline/audio"
+	"github.com/hewline/hewline/capture"
 	"github.com/hewline/hewline/capture/record"
 	"github.com/hewline/hewline/guidance/ctlstream"
 	"github.com/hewline/hewline/guidance/haptic"
@@ -145,9 +146,15 @@ func (s *HapticSink) Frame(r *Result, _ gocv.Mat) error {
 // live run's decisions. Recording runs on its own goroutine (Background):
 // a slow disk drops recorded frames (counted) but never slows guidance,
 // and a full disk stops the recording, never the run.
+//
+// The tracker's other events (watchdog ticks and faults, in
+// Result.Info.Before) go into the sidecar with the frame after them; when
+// the recorder drops a frame, its events move on to the next recorded one,
+// so a replay still repeats every alarm the live run raised.
 type RecordSink struct {
-	B *record.Background
-	n int
+	B       *record.Background
+	n       int
+	pending []capture.TrackerEvent // events of frames the recorder dropped
 }
 
 // Frame implements Sink.
@@ -157,7 +164,16 @@ func (s *RecordSink) Frame(r *Result, img gocv.Mat) error {
 	}
 	info := r.Info
 	info.Index, info.T = s.n, r.TrackT
+	if len(s.pending) > 0 {
+		info.Before = append(append([]capture.TrackerEvent(nil), s.pending...), info.Before...)
+	}
 	s.n++
+	drops := s.B.Drops()
 	_ = s.B.Write(img, info) // failures are kept in B.Err(); guidance goes on
+	if s.B.Drops() != drops {
+		s.pending = info.Before
+	} else {
+		s.pending = nil
+	}
 	return nil
 }

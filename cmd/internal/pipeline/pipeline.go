@@ -242,6 +242,9 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 				tk.fault(fmt.Sprintf("frame size changed from %dx%d to %dx%d", last.Size.X, last.Size.Y, r.Info.Size.X, r.Info.Size.Y))
 			}
 			first, last = false, r.Info
+			if !cfg.Live {
+				tk.replay(r.Info.Before)
+			}
 			hint := tk.hint(r)
 			r.Det = cfg.Detector.Detect(*it.mat, hint)
 			r.Est = tk.update(r, guidance.Measurement{
@@ -325,6 +328,10 @@ type trackerClock struct {
 	start     time.Time
 	lastFrame time.Time
 	last      Result
+	// pending (live) collects the ticks and faults since the last frame;
+	// update hands them to that frame's Info.Before, so that a recording
+	// keeps them and its replay repeats them.
+	pending []capture.TrackerEvent
 }
 
 func (c *trackerClock) at(r *Result) time.Duration {
@@ -349,8 +356,27 @@ func (c *trackerClock) update(r *Result, m guidance.Measurement) guidance.Estima
 	r.TrackT = c.at(r)
 	e := c.tr.Update(r.TrackT, m)
 	c.lastFrame = c.now()
-	c.last = Result{Info: r.Info, Tick: true}
+	if c.live {
+		r.Info.Before, c.pending = c.pending, nil
+	}
+	info := r.Info
+	info.Before = nil
+	c.last = Result{Info: info, Tick: true}
 	return e
+}
+
+// replay (replay only) tells the tracker what a recorded live run's
+// tracker was told before this frame: its watchdog ticks and faults.
+func (c *trackerClock) replay(events []capture.TrackerEvent) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for _, e := range events {
+		if e.Fault != "" {
+			c.tr.Fault(e.T, e.Fault)
+		} else {
+			c.tr.Tick(e.T)
+		}
+	}
 }
 
 func (c *trackerClock) fault(reason string) {
@@ -359,6 +385,7 @@ func (c *trackerClock) fault(reason string) {
 	t := c.last.Info.T
 	if c.live {
 		t = c.now().Sub(c.start)
+		c.pending = append(c.pending, capture.TrackerEvent{T: t, Fault: reason})
 	}
 	c.tr.Fault(t, reason)
 }
@@ -374,7 +401,11 @@ func (c *trackerClock) tick(period time.Duration) (Result, bool) {
 	}
 	r := c.last
 	r.Tick = true // also before the first frame, when c.last is empty
-	r.Est = c.tr.Tick(now.Sub(c.start))
+	t := now.Sub(c.start)
+	r.Est = c.tr.Tick(t)
+	if c.live {
+		c.pending = append(c.pending, capture.TrackerEvent{T: t})
+	}
 	r.Cue = guidance.Decide(r.Est)
 	r.Captured, r.Decided = time.Time{}, now
 	return r, true

@@ -23,6 +23,7 @@ import (
 	"github.com/hewline/hewline/guidance"
 	"github.com/hewline/hewline/guidance/ctlstream"
 	"github.com/hewline/hewline/guidance/haptic"
+	"github.com/hewline/hewline/guidance/report"
 	"github.com/hewline/hewline/guidance/tracklog"
 )
 
@@ -490,6 +491,5 @@ func pct3(xs []float64) [3]float64 {
 	}
 	s := append([]float64(nil), xs...)
 	sort.Float64s(s)
-	at := func(p float64) float64 { return s[int(p*float64(len(s)-1))] }
-	return [3]float64{at(0.5), at(0.95), s[len(s)-1]}
+	return [3]float64{report.NearestRank(s, 50), report.NearestRank(s, 95), s[len(s)-1]}
 }

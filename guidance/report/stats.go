@@ -207,14 +207,17 @@ func makeLoss(rs []tracklog.Record, a, b int, fps float64) Loss {
 // practice). It sorts v.
 func percentiles(v []float64) *Latency {
 	sort.Float64s(v)
-	rank := func(p float64) float64 {
-		k := int(math.Ceil(p / 100 * float64(len(v))))
-		if k < 1 {
-			k = 1
-		}
-		return v[k-1]
-	}
+	rank := func(p float64) float64 { return NearestRank(v, p) }
 	return &Latency{N: len(v), P50: rank(50), P95: rank(95), P99: rank(99), Max: v[len(v)-1]}
+}
+
+// NearestRank is the p-th percentile (0 < p ≤ 100) of sorted by the
+// nearest-rank method: the smallest value with at least p % of the values
+// at or below it. sorted must be in ascending order and not empty.
+func NearestRank(sorted []float64, p float64) float64 {
+	k := int(math.Ceil(p / 100 * float64(len(sorted))))
+	k = min(max(k, 1), len(sorted))
+	return sorted[k-1]
 }
 
 // Combine adds up several logs' statistics. Alarm periods and losses are

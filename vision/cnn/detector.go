@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"image"
 	"math"
+	"slices"
 
 	"github.com/hewline/hewline/vision"
 	"gocv.io/x/gocv"
@@ -31,6 +32,11 @@ type Config struct {
 	// MinRowConf is the lowest per-row confidence (Row.Conf) for a row
 	// to count as seeing the stripe [0.5].
 	MinRowConf float64
+	// MinRowContrast is the least Row.Contrast, in the standardised
+	// input's units (the frame's grey-level standard deviations), for a
+	// fitted row to count as Seen [0.5]; it must also stand three robust
+	// deviations out of its band (see Row.Seen).
+	MinRowContrast float64
 }
 
 // Row is one anchor row's reading.
@@ -49,6 +55,17 @@ type Row struct {
 	// Fitted is true when the row was confident enough and lay on the
 	// fitted curve (see Detector.Detect).
 	Fitted bool
+	// Contrast is what the image itself shows at X, valid when Present:
+	// the largest deviation from the band's median of the network input's
+	// column profile (the band's rows averaged, in standardised grey
+	// levels) within one input pixel of X. Spread is the band profile's
+	// robust standard deviation (1.4826 × its median absolute deviation).
+	Contrast, Spread float64
+	// Seen is true when the row is Fitted and the image shows something at
+	// X: Contrast ≥ MinRowContrast and ≥ 3 Spread. The network reads rows
+	// in context and carries a line on across a gap or past its end with
+	// full confidence; Seen is the check that the stripe is there.
+	Seen bool
 }
 
 // Detector finds the stripe with the row-anchor network through OpenCV's
@@ -64,6 +81,8 @@ type Detector struct {
 	// Per-frame fit buffers, reused.
 	xs, ys, ws []float64
 	idx        []int
+	prof, dev  []float64 // rowContrast's buffers, InW each
+	found      bool      // the last Detect found the stripe
 }
 
 // NewDetector validates and loads modelBytes (see Load). It does not
@@ -74,6 +93,9 @@ func NewDetector(modelBytes []byte, cfg Config) (*Detector, error) {
 	}
 	if cfg.MinRowConf <= 0 {
 		cfg.MinRowConf = 0.5
+	}
+	if cfg.MinRowContrast <= 0 {
+		cfg.MinRowContrast = 0.5
 	}
 	if cfg.MinRowConf >= 1 || cfg.RefRowFrac < 0 || cfg.RefRowFrac >= 1 {
 		return nil, fmt.Errorf("cnn: MinRowConf %v and RefRowFrac %v must be in [0, 1)", cfg.MinRowConf, cfg.RefRowFrac)
@@ -89,7 +111,8 @@ func NewDetector(modelBytes []byte, cfg Config) (*Detector, error) {
 	}
 	return &Detector{cfg: cfg, net: net, pre: NewPreprocessor(a),
 		in: make([]float32, a.InW*a.InH), out: make([]float32, a.Outputs()), rows: make([]Row, a.Rows),
-		xs: make([]float64, 0, a.Rows), ys: make([]float64, 0, a.Rows), ws: make([]float64, 0, a.Rows), idx: make([]int, 0, a.Rows)}, nil
+		xs: make([]float64, 0, a.Rows), ys: make([]float64, 0, a.Rows), ws: make([]float64, 0, a.Rows), idx: make([]int, 0, a.Rows),
+		prof: make([]float64, a.InW), dev: make([]float64, a.InW)}, nil
 }
 
 // Arch returns the loaded model's architecture.
@@ -123,6 +146,7 @@ func (d *Detector) Rows() []Row { return d.rows }
 // curve and cell the width of one column cell.
 func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	_ = hint
+	d.found = false
 	det := vision.Detection{Method: Method}
 	a := d.net.Model().Arch
 	roi := d.cfg.ROI
@@ -154,6 +178,7 @@ func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 			}
 			row.Present, row.Conf = true, s
 			row.X = float64(roi.Min.X) + m/s*cellW
+			row.Contrast, row.Spread = d.rowContrast(r, (row.X-float64(roi.Min.X))/float64(roi.Dx())*float64(a.InW))
 			if s >= d.cfg.MinRowConf {
 				xs, ys, ws, idx = append(xs, row.X), append(ys, row.Y), append(ws, s), append(idx, r)
 			}
@@ -205,7 +230,9 @@ func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 		idx = append(idx[:worst], idx[worst+1:]...)
 	}
 	for _, r := range idx {
-		d.rows[r].Fitted = true
+		row := &d.rows[r]
+		row.Fitted = true
+		row.Seen = row.Contrast >= d.cfg.MinRowContrast && row.Contrast >= 3*row.Spread
 	}
 	n := len(xs)
 	// The offset is read at the reference row: the stripe must cross it,
@@ -227,7 +254,7 @@ func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	rms := math.Sqrt(rss / wsum)
 	cover := math.Min(1, float64(n)/(float64(a.Rows)/2))
 	fit := 1 / (1 + (rms/cellW)*(rms/cellW))
-	det.Found = true
+	det.Found, d.found = true, true
 	det.Confidence = confSum / float64(n) * cover * fit
 	det.RefRow = ref
 	det.OffsetPx = c[0] - float64(img.Cols())/2
@@ -247,6 +274,61 @@ func (d *Detector) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 		det.Points[i] = vision.Point{X: c[0] + c[1]*t + c[2]*t*t, Y: y}
 	}
 	return det
+}
+
+// Coverage is the share of the last Detect's anchor rows between frame
+// rows y0 and y1 (y0 ≤ Y < y1) that are Seen: fitted and showing the
+// stripe in the image. It is 0 when no anchor row lies there or nothing
+// was found. pipeline.Fused uses it to keep the network from carrying a
+// track over rows where the line has ended.
+func (d *Detector) Coverage(y0, y1 float64) float64 {
+	if !d.found {
+		return 0
+	}
+	n, seen := 0, 0
+	for _, r := range d.rows {
+		if r.Y >= y0 && r.Y < y1 {
+			n++
+			if r.Seen {
+				seen++
+			}
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	return float64(seen) / float64(n)
+}
+
+// rowContrast measures anchor row r's band of the network input at input
+// column xi (pixel centres at i+0.5): see Row.Contrast.
+func (d *Detector) rowContrast(r int, xi float64) (contrast, spread float64) {
+	a := d.net.Model().Arch
+	y0, y1 := r*a.InH/a.Rows, (r+1)*a.InH/a.Rows
+	if y1 <= y0 {
+		y1 = y0 + 1
+	}
+	p, dev := d.prof[:a.InW], d.dev[:a.InW]
+	for x := range p {
+		var s float64
+		for y := y0; y < y1; y++ {
+			s += float64(d.in[y*a.InW+x])
+		}
+		p[x] = s / float64(y1-y0)
+	}
+	copy(dev, p)
+	slices.Sort(dev)
+	med := dev[len(dev)/2]
+	for i, v := range p {
+		dev[i] = math.Abs(v - med)
+	}
+	slices.Sort(dev)
+	spread = 1.4826 * dev[len(dev)/2]
+	c := int(math.Floor(xi))
+	for x := max(0, c-1); x <= min(a.InW-1, c+1); x++ {
+		contrast = math.Max(contrast, math.Abs(p[x]-med))
+	}
+	return contrast, spread
 }
 
 // fitPoly fits x = c0 + c1·t + c2·t² (c2 = 0 when deg is 1), t = y − ref,

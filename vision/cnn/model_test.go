@@ -345,3 +345,65 @@ func TestDetectorEndOfLine(t *testing.T) {
 		})
 	}
 }
+
+// TestRowsSeenOnlyWhereTheStripeIs renders the renderer's gap scene, where
+// the line stops in the near half and resumes far ahead, and checks the
+// rows against the renderer's truth centreline: the network reads the
+// bare floor in the gap as "stripe present" (it carries the line on in
+// context), but no row is Seen there, so Coverage of the near half falls
+// below 1; before the gap every near row is Seen.
+func TestRowsSeenOnlyWhereTheStripeIs(t *testing.T) {
+	if testing.Short() {
+		t.Skip("renders 109 frames")
+	}
+	sc, err := synth.Lookup("gap")
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := synth.New(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	d := shippedDetector(t, Config{RefRowFrac: 0.8})
+	defer d.Close()
+	img := gocv.NewMat()
+	defer img.Close()
+	cellW := float64(sc.Width) / float64(d.Arch().Cells)
+	bare := 0
+	for i := 0; i <= 108; i++ {
+		if _, err := r.Read(&img); err != nil {
+			t.Fatal(err)
+		}
+		if i != 100 && i != 108 {
+			continue
+		}
+		d.Detect(img, vision.Hint{})
+		tf := r.Truth()
+		for _, row := range d.Rows() {
+			tx, on := math.NaN(), false
+			for _, p := range tf.Points {
+				if math.Abs(p[1]-row.Y) <= 2 {
+					tx, on = p[0], true
+				}
+			}
+			if row.Present && !on {
+				bare++
+			}
+			if row.Seen && (!on || math.Abs(row.X-tx) > 2*cellW) {
+				t.Errorf("frame %d row %.0f: Seen at x %.0f (contrast %.2f, spread %.2f) but the truth has the line at %v", i, row.Y, row.X, row.Contrast, row.Spread, tx)
+			}
+		}
+		cov := d.Coverage(float64(sc.Height)/2, float64(sc.Height))
+		t.Logf("frame %d: near-half coverage %.2f", i, cov)
+		if i == 100 && cov != 1 {
+			t.Errorf("frame 100 (line through the near half): coverage %.2f, want 1", cov)
+		}
+		if i == 108 && cov >= 1 {
+			t.Errorf("frame 108 (gap in the near half): coverage %.2f, want < 1", cov)
+		}
+	}
+	if bare == 0 {
+		t.Log("no row read the bare floor as stripe: the check above was not exercised")
+	}
+}

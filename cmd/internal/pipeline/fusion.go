@@ -39,7 +39,13 @@ const (
 //   - both found the stripe and their offsets at the classical reference
 //     row agree within AgreePx (scaled with the frame width from 640 px):
 //     "fused", the classical position with the better of the two
-//     confidences (the fallback's capped, see below);
+//     confidences (the fallback's capped, see below). The fallback's
+//     confidence counts only when the classical line covers three
+//     quarters of the frame's lower half and the fallback sees the line
+//     on its own rows there (see near rows below); otherwise the classical
+//     confidence stands: agreeing on where a line is says nothing about
+//     whether it goes on, and the classical detector's confidence falls
+//     as a line's end comes near;
 //   - they disagree: "disputed:classical" or "disputed:cnn", whichever
 //     is nearer the prediction (the fallback only if it passed the gate),
 //     with its confidence halved: two detectors that disagree are not to
@@ -47,14 +53,21 @@ const (
 //   - classical found nothing and the fallback's measurement passed the
 //     gate and covers at least three quarters of the lower half of the
 //     frame (the rows guidance steers by; a line that ends or starts in
-//     them is for the classical detector to judge): the fallback's
-//     measurement (Method "cnn"). The fallback bridges
+//     them is for the classical detector to judge) and it sees the line on
+//     its near rows: the fallback's measurement (Method "cnn"). The
+//     fallback bridges
 //     one unbroken stretch only: the first frame in which classical finds
 //     nothing and the fallback has no measurement that passes the gate
 //     ends the bridge, and the fallback is not used alone again until the
 //     classical detector is confident (≥ Threshold) once more. A bridge
 //     that has started to fail is not trusted to recover by itself, and
 //     no bridge lasts longer than MaxBridge frames.
+//
+// Near rows: a fallback that reads the frame in rows (rowCoverage, the
+// CNN) must see the line, with the image showing it there, on at least
+// MinNearSeen of its rows in the frame's lower half. The network reads
+// rows in context and carries a line on across a gap or past its end at
+// full confidence; only rows where the image shows the stripe count.
 //
 // Any confidence that rests on the fallback is capped at MaxFallbackConf.
 // Set it below the tracker's MinConfidence (the acquisition threshold) and
@@ -83,6 +96,10 @@ type Fused struct {
 	// MaxBridge is the most consecutive frames the fallback may carry the
 	// track alone (default 30: one second at 30 frames/s).
 	MaxBridge int
+	// MinNearSeen is the least share of a row-reading fallback's rows in
+	// the frame's lower half that must see the line for its measurement
+	// or its confidence to count (default 1: all of them).
+	MinNearSeen float64
 
 	n int
 	// broken is set when a bridge on the fallback alone failed, until the
@@ -110,6 +127,28 @@ func (f *Fused) defaults() (thr, agree, gate, capConf float64) {
 		capConf = 0.45
 	}
 	return
+}
+
+// rowCoverage is what Fused asks of a fallback that reads the frame in
+// rows (cnn.Detector): the share of its rows between frame rows y0 and y1
+// on which its last Detect saw the line, with the image showing it there.
+type rowCoverage interface {
+	Coverage(y0, y1 float64) float64
+}
+
+// nearSeen reports whether the fallback's last measurement sees the line
+// on enough of its rows in the lower half of a frame h rows high; true
+// for a fallback that does not read rows.
+func (f *Fused) nearSeen(h float64) bool {
+	rc, ok := f.Fallback.(rowCoverage)
+	if !ok {
+		return true
+	}
+	need := f.MinNearSeen
+	if need <= 0 || need > 1 {
+		need = 1
+	}
+	return rc.Coverage(h/2, h) >= need-1e-9
 }
 
 // Detect implements Detector.
@@ -172,8 +211,12 @@ func (f *Fused) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 			use := d
 			use.Method = MethodFused
 			if c.Confidence > d.Confidence {
-				use.Confidence = c.Confidence
-				f.FallbackUsed++
+				if coversNear(d.Points, float64(img.Rows())) && f.nearSeen(float64(img.Rows())) {
+					use.Confidence = c.Confidence
+					f.FallbackUsed++
+				} else {
+					use.Reason = joinReason(use.Reason, "cnn agrees but its confidence does not count: the line is not seen over the near half")
+				}
 			}
 			return use
 		}
@@ -196,6 +239,8 @@ func (f *Fused) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 	case gated:
 	case !coversNear(c.Points, float64(img.Rows())):
 		gated, why = true, "it does not see the line over the near half of the frame"
+	case !f.nearSeen(float64(img.Rows())):
+		gated, why = true, "the image does not show the line on all its near rows"
 	case f.broken:
 		gated, why = true, "the bridge on the cnn alone failed; waiting for a confident classical measurement"
 	case f.bridge >= maxBridge:

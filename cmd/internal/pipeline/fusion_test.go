@@ -201,3 +201,61 @@ func TestFallbackNeverStartsTrack(t *testing.T) {
 		t.Errorf("frame 69: no alarm 10 frames after the bridge ended (%s)", es[69].State)
 	}
 }
+
+// rowsSeen is a fallback that reads the frame in rows, like the CNN, and
+// says on what share of its near rows the image showed the line.
+type rowsSeen struct {
+	fixed
+	near float64
+}
+
+func (r *rowsSeen) Coverage(y0, y1 float64) float64 {
+	if y0 != 240 || y1 != 480 {
+		return -1 // Fused asks about the lower half of the 480-row frame
+	}
+	return r.near
+}
+
+// TestFusionNearRows: the CNN carries a line on across a gap or past its
+// end at full confidence (measured on the gap scene: rows 270–330 read
+// "present" at 0.97–1.00 where the floor is bare), so its confidence and
+// its measurement count only where the image shows the line on every one
+// of its near rows, and a lift of the classical confidence also needs the
+// classical line to reach over the near half.
+func TestFusionNearRows(t *testing.T) {
+	img := gocv.NewMatWithSize(480, 640, gocv.MatTypeCV8UC3)
+	defer img.Close()
+	none := vision.Detection{Method: "classical", Reason: "no candidates"}
+	ending := line(300, 0.3, "classical")
+	ending.Points[1].Y = 400 // the line ends in the near rows
+	for name, tc := range map[string]struct {
+		primary    vision.Detection
+		near       float64
+		wantMethod string
+		wantFound  bool
+		wantConf   float64
+	}{
+		"agrees, every near row seen": {line(300, 0.3, "classical"), 1, "fused", true, 0.45},
+		"agrees, a near row bare":     {line(300, 0.3, "classical"), 0.75, "fused", true, 0.3},
+		"agrees, classical line ends": {ending, 1, "fused", true, 0.3},
+		"alone, every near row seen":  {none, 1, "cnn", true, 0.45},
+		"alone, a near row bare":      {none, 0.75, "classical", false, 0},
+		"alone, no near row seen":     {none, 0, "classical", false, 0},
+	} {
+		t.Run(name, func(t *testing.T) {
+			c := &rowsSeen{fixed: fixed{d: line(302, 0.8, "cnn")}, near: tc.near}
+			f := &pipeline.Fused{Primary: &fixed{d: tc.primary}, Fallback: c}
+			d := f.Detect(img, track(300))
+			if d.Method != tc.wantMethod || d.Found != tc.wantFound || d.Confidence != tc.wantConf {
+				t.Errorf("got %s found %v conf %.3f, want %s %v %.3f (reason %q)",
+					d.Method, d.Found, d.Confidence, tc.wantMethod, tc.wantFound, tc.wantConf, d.Reason)
+			}
+		})
+	}
+	// MinNearSeen relaxes the rule.
+	c := &rowsSeen{fixed: fixed{d: line(302, 0.8, "cnn")}, near: 0.75}
+	f := &pipeline.Fused{Primary: &fixed{d: none}, Fallback: c, MinNearSeen: 0.75}
+	if d := f.Detect(img, track(300)); d.Method != "cnn" {
+		t.Errorf("MinNearSeen 0.75 with 3 of 4 near rows seen: %s (%q), want cnn", d.Method, d.Reason)
+	}
+}

@@ -124,7 +124,11 @@ func runCNNCompare(ctx context.Context, args []string, stdout, stderr io.Writer)
 	writeFallbackTable(&b, results)
 	fmt.Fprint(stdout, b.String())
 	if *readme != "" {
-		text := fmt.Sprintf("Regenerate: `hewline cnn-compare -scenario %s -readme README.md` (model: %s).\n\n%s", *scen, modelName(&on), b.String())
+		sizeArg := ""
+		if *size != "" {
+			sizeArg = " -size " + *size
+		}
+		text := fmt.Sprintf("Regenerate: `hewline cnn-compare -scenario %s%s -readme README.md` (model: %s).\n\n%s", *scen, sizeArg, modelName(&on), b.String())
 		if err := replaceBetween(*readme, "<!-- cnn:begin -->", "<!-- cnn:end -->", text); err != nil {
 			return err
 		}

@@ -159,7 +159,7 @@ func replayFlags(fs *flag.FlagSet) *replayOptions {
 	fs.StringVar(&o.wav, "wav", "", "write the operator's cue and alarm sound, following frame times, to the WAV `FILE`")
 	fs.StringVar(&o.stream, "stream", "", "send the controller stream (NDJSON over UDP) to `HOST:PORT` (loopback or an explicit address; broadcast refused)")
 	fs.StringVar(&o.calib, "calib", "", "calibration `FILE` (hewline calib): adds offset_mm, heading_floor_deg and width_mm while tracking")
-	fs.BoolVar(&o.cnn, "cnn", false, "use the CNN fallback when the classical detector is unsure (off by default: on the suite it still adds false-track frames where the line ends; see README, CNN fallback)")
+	fs.BoolVar(&o.cnn, "cnn", false, "use the CNN fallback when the classical detector is unsure (off by default: on the suite it no longer adds false tracks, but it gains no recall either; see README, CNN fallback)")
 	fs.StringVar(&o.cnnModel, "cnn-model", "", "CNN model `FILE` (ONNX from hewline train; default the shipped model)")
 	fs.IntVar(&o.cnnCheck, "cnn-check", 0, "also run the CNN every `N`th frame as a cross-check (0 = only when unsure)")
 	return o

@@ -1,6 +1,10 @@
 package main
 
 import (
+	"bytes"
+	"context"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -29,5 +33,37 @@ func TestFallbackTable(t *testing.T) {
 		if !strings.Contains(got, want) {
 			t.Errorf("table lacks %q:\n%s", want, got)
 		}
+	}
+}
+
+func TestCNNCompareSizeFlag(t *testing.T) {
+	for name, size := range map[string]string{"two sizes": "320x240,640x480", "not WxH": "320", "too small": "8x8"} {
+		t.Run(name, func(t *testing.T) {
+			var out, errb bytes.Buffer
+			if code := run(context.Background(), []string{"cnn-compare", "-scenario", "gap", "-size", size, "-out", t.TempDir()}, &out, &errb); code != 2 {
+				t.Errorf("-size %s: exit %d, want 2 (stderr %q)", size, code, errb.String())
+			}
+		})
+	}
+	if testing.Short() {
+		t.Skip("renders and replays a scene twice")
+	}
+	dir := t.TempDir()
+	var out, errb bytes.Buffer
+	if code := run(context.Background(), []string{"cnn-compare", "-scenario", "gap", "-size", "160x120", "-jobs", "1", "-out", dir}, &out, &errb); code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	for _, f := range []string{"gap@160x120.avi", "gap@160x120.truth.ndjson", "gap@160x120.fallback.track.ndjson"} {
+		if _, err := os.Stat(filepath.Join(dir, f)); err != nil {
+			t.Error(err)
+		}
+	}
+	// The clip is rendered at the size asked for (the track log's header).
+	b, err := os.ReadFile(filepath.Join(dir, "gap@160x120.classical.track.ndjson"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(string(b[:min(len(b), 400)]), `"width":160,"height":120`) {
+		t.Errorf("track log header %q, want width 160 and height 120", b[:min(len(b), 400)])
 	}
 }

@@ -39,6 +39,10 @@ type Config struct {
 	// of the line, and the track jumps to them.
 	StepConfirmFrames int `yaml:"step_confirm_frames"`
 
+	// The pixel settings below (OffsetNoisePx, OffsetAccel,
+	// OffsetRateSigma) are at a 640 px wide frame (RefWidthPx); the
+	// tracker scales them to the frames it is given (SetFrameWidth).
+	//
 	// OffsetNoisePx and HeadingNoiseDeg: 1-sigma measurement noise.
 	OffsetNoisePx   float64 `yaml:"offset_noise_px"`
 	HeadingNoiseDeg float64 `yaml:"heading_noise_deg"`

@@ -68,8 +68,9 @@ type Estimate struct {
 // Tick and Fault (for example in the goroutine that reads frames, with the
 // watchdog sending it ticks).
 type Tracker struct {
-	cfg  Config
-	gate float64 // chi-square 2-DOF quantile of cfg.GateProbability
+	cfg     Config
+	gate    float64 // chi-square 2-DOF quantile of cfg.GateProbability
+	pxScale float64 // frame width / RefWidthPx (SetFrameWidth); 1 until set
 
 	state   State
 	started bool
@@ -131,15 +132,48 @@ func (t *Tracker) Config() Config { return t.cfg }
 // Reset forgets everything: the tracker is Seeking again and the next call
 // starts its clock.
 func (t *Tracker) Reset() {
-	cfg := t.cfg
+	cfg, s := t.cfg, t.pxScale
+	if s <= 0 {
+		s = 1
+	}
 	*t = Tracker{
-		cfg:  cfg,
-		gate: ChiSquareQuantile(cfg.GateProbability, 2),
-		off:  NewKalmanCV(cfg.OffsetAccel, cfg.OffsetNoisePx),
-		head: NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg),
+		cfg:     cfg,
+		gate:    ChiSquareQuantile(cfg.GateProbability, 2),
+		pxScale: s,
+		off:     NewKalmanCV(cfg.OffsetAccel*s, cfg.OffsetNoisePx*s),
+		head:    NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg),
 	}
 	t.cand.off, t.cand.head = t.off, t.head
 }
+
+// RefWidthPx is the frame width at which Config's pixel settings
+// (OffsetNoisePx, OffsetAccel, OffsetRateSigma) are given. The tracker
+// scales them to the frame it is given (SetFrameWidth), so that one set of
+// settings means the same at 160×120 and at 1280×720: a stripe's image
+// moves, and its measurements scatter, in proportion to the frame.
+const RefWidthPx = 640
+
+// SetFrameWidth tells the tracker the width in pixels of the frames its
+// measurements come from, and scales the pixel settings by w/RefWidthPx.
+// Call it before the first Update and whenever the frame size changes (a
+// size change is a fault anyway: the track starts again). w ≤ 0 means
+// RefWidthPx.
+func (t *Tracker) SetFrameWidth(w int) {
+	s := 1.0
+	if w > 0 {
+		s = float64(w) / RefWidthPx
+	}
+	if s == t.pxScale {
+		return
+	}
+	t.pxScale = s
+	for _, k := range []*KalmanCV{&t.off, &t.cand.off} {
+		k.AccelSigma, k.MeasSigma = t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s
+	}
+}
+
+// offsetRateSigma is OffsetRateSigma at the frame's width.
+func (t *Tracker) offsetRateSigma() float64 { return t.cfg.OffsetRateSigma * t.pxScale }
 
 // Update takes one frame's measurement taken at now. Call it once per
 // frame, whether or not the detector found anything.
@@ -334,7 +368,7 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 	}
 	if !c.active {
 		c.active, c.n, c.t = true, 1, now
-		c.off.Init(m.OffsetPx, t.cfg.OffsetRateSigma)
+		c.off.Init(m.OffsetPx, t.offsetRateSigma())
 		c.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
 	}
 	if c.n >= t.cfg.StepConfirmFrames {
@@ -385,7 +419,7 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 // does not count as trusted (it agrees with nothing yet), unless
 // ReacquireFor is 0.
 func (t *Tracker) startRun(now time.Duration, m Measurement) {
-	t.off.Init(m.OffsetPx, t.cfg.OffsetRateSigma)
+	t.off.Init(m.OffsetPx, t.offsetRateSigma())
 	t.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
 	t.filterT = now
 	t.runActive, t.runStart, t.runLast = true, now, now

@@ -649,3 +649,55 @@ func TestMeasuredSaysWhetherTheFrameWasUsed(t *testing.T) {
 		t.Errorf("first frame of an acquisition says Measured: %+v", e)
 	}
 }
+
+// TestFrameWidthScalesPixelSettings: the same scene at another frame size
+// (every offset scaled by width/640) gets the same decisions, and offsets
+// in proportion, once the tracker is told the frame width. Without
+// SetFrameWidth a 1280 px frame's line moves twice as many pixels against
+// the same pixel noise, and the gate refuses it.
+func TestFrameWidthScalesPixelSettings(t *testing.T) {
+	// A weave of ±60 px at 0.8 Hz with a 3 px jitter, a 0.2 s dropout and a
+	// 40 px step (a line moved), at 30 fps: worked at 640 px wide.
+	meas := func(i int) guidance.Measurement {
+		if i >= 50 && i < 56 {
+			return guidance.Measurement{}
+		}
+		off := 60*math.Sin(2*math.Pi*0.8*float64(i)/30) + 3*float64(i%3-1)
+		if i >= 80 {
+			off += 40
+		}
+		return good(off, 1)
+	}
+	run := func(w int, set bool) []guidance.Estimate {
+		tr := newTracker(t, guidance.DefaultConfig())
+		if set {
+			tr.SetFrameWidth(w)
+		}
+		var es []guidance.Estimate
+		for i := 0; i < 120; i++ {
+			m := meas(i)
+			m.OffsetPx *= float64(w) / 640
+			es = append(es, tr.Update(time.Duration(i)*time.Second/30, m))
+		}
+		return es
+	}
+	ref := run(640, false)
+	for _, w := range []int{160, 320, 1280} {
+		got := run(w, true)
+		for i := range ref {
+			if got[i].State != ref[i].State || got[i].Gated != ref[i].Gated ||
+				math.Abs(got[i].OffsetPx-ref[i].OffsetPx*float64(w)/640) > 1e-6*float64(w) {
+				t.Fatalf("%d px wide, frame %d: %s gated=%v offset %.3f; at 640: %s gated=%v offset %.3f (×%.2f)",
+					w, i, got[i].State, got[i].Gated, got[i].OffsetPx, ref[i].State, ref[i].Gated, ref[i].OffsetPx, float64(w)/640)
+			}
+		}
+	}
+	// Unscaled, the 1280 px run differs: the test can tell.
+	raw, same := run(1280, false), true
+	for i := range ref {
+		same = same && raw[i].State == ref[i].State && raw[i].Gated == ref[i].Gated
+	}
+	if same {
+		t.Error("without SetFrameWidth the 1280 px run decided as at 640: the scene does not exercise the scaling")
+	}
+}

@@ -241,6 +241,9 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 				st.SizeChanges++
 				tk.fault(fmt.Sprintf("frame size changed from %dx%d to %dx%d", last.Size.X, last.Size.Y, r.Info.Size.X, r.Info.Size.Y))
 			}
+			if first || r.Info.Size != last.Size {
+				tk.frameWidth(r.Info.Size.X)
+			}
 			first, last = false, r.Info
 			if !cfg.Live {
 				tk.replay(r.Info.Before)
@@ -363,6 +366,13 @@ func (c *trackerClock) update(r *Result, m guidance.Measurement) guidance.Estima
 	info.Before = nil
 	c.last = Result{Info: info, Tick: true}
 	return e
+}
+
+// frameWidth scales the tracker's pixel settings to the frames' width.
+func (c *trackerClock) frameWidth(w int) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	c.tr.SetFrameWidth(w)
 }
 
 // replay (replay only) tells the tracker what a recorded live run's

@@ -60,7 +60,10 @@ func (d fakeDetector) Detect(img gocv.Mat, _ vision.Hint) vision.Detection {
 	if i >= d.gapFrom && i < d.gapTo {
 		return vision.Detection{Method: "fake", Reason: "gap"}
 	}
-	return vision.Detection{Found: true, OffsetPx: float64(i % 7), Confidence: 0.9, Method: "fake",
+	// A steady line with a jitter of up to 6 px at 640 px wide, in
+	// proportion to the frame (the tracker scales its noise so).
+	jitter := float64(i%7) * float64(img.Cols()) / 640
+	return vision.Detection{Found: true, OffsetPx: jitter, Confidence: 0.9, Method: "fake",
 		Points: []vision.Point{{X: 32, Y: 47}, {X: 32, Y: 0}}, RefRow: 38}
 }
 

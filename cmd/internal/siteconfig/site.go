@@ -79,7 +79,8 @@ type Detector struct {
 }
 
 // Tracker holds the tracker's settings other than the alarm timing (see
-// guidance.Config for their meaning).
+// guidance.Config for their meaning). The pixel settings are at a 640 px
+// wide frame and scale with the frames' width.
 type Tracker struct {
 	MaxFrameGap       time.Duration `yaml:"max_frame_gap"`
 	MinConfidence     float64       `yaml:"min_confidence"`

@@ -90,6 +90,17 @@ type Lane struct {
 	// horizon), for bands where no width was learned; wlineOK when set.
 	wline   curve
 	wlineOK bool
+	// fm maps the image to the floor, with the horizon and the lane's
+	// width learned while both boundaries are seen (fm.ok once learned):
+	// the centre is then inferred from one boundary along its normal on
+	// the floor.
+	fm floorModel
+	// hcost[g] is the misfit of horizon row g (learnFloor's grid) summed
+	// over the recent frames, hnum/hden the sums giving W there.
+	hcost, hnum, hden []float64
+	// scratch for learnFloor
+	fa, fb, qa, qb []([2]float64)
+	fcost, fmean   []float64
 	// prev: boundaries and centre at the reference row (input pixels,
 	// degrees) in the last frame with a detection.
 	prevSide   [2]sideAt
@@ -121,7 +132,10 @@ func (ln *Lane) Close() error { return ln.c.Close() }
 // Reset forgets the learned width and the last boundaries (a new clip).
 func (ln *Lane) Reset() {
 	clear(ln.width)
-	ln.prevOK, ln.wlineOK = false, false
+	ln.prevOK, ln.wlineOK, ln.fm.ok = false, false, false
+	clear(ln.hcost)
+	clear(ln.hnum)
+	clear(ln.hden)
 }
 
 func laneNotFound(reason string) Detection {
@@ -142,6 +156,8 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	}
 	if k := [3]int{fr.ww, fr.wh, l.n}; k != ln.key || len(ln.width) != l.n {
 		ln.key, ln.width, ln.prevOK, ln.wlineOK = k, make([]float64, l.n), false, false
+		ln.fm = floorModel{cx: float64(fr.ww) / 2, cy: float64(fr.wh) / 2, f: assumedFocal * float64(fr.ww)}
+		ln.hcost, ln.hnum, ln.hden = nil, nil, nil
 		ln.turn = [2][]float64{make([]float64, l.n), make([]float64, l.n)}
 	}
 	yRefIn := c.cfg.RefRow * fr.inH
@@ -474,6 +490,158 @@ func (ln *Lane) learn(l bandLayout, a, b *fitResult) {
 		ln.wline = curve{a: (sw - b*sy) / n, b: b, scale: 1}
 		ln.wlineOK = true
 	}
+	ln.learnFloor(l, a, b)
+}
+
+// floorMemory is the share of the floor model's evidence kept from one
+// frame to the next (about a second at 30 frames/s): one frame's widths,
+// extrapolated to the horizon far above them, can put it tens of pixels
+// off; a camera's pitch changes slowly.
+const floorMemory = 0.97
+
+// horizonStep is the spacing, in working pixels, of the horizon rows
+// tried (refined between them by a parabola).
+const horizonStep = 2
+
+// learnFloor updates the floor model from a frame with both boundaries.
+// With the right horizon the lane mapped to the floor is as wide
+// everywhere, in a bend as on a straight (a wrong one fans it out or in,
+// and a wrong one shows in a bend as in a straight), so every horizon row
+// on a grid is tried: both boundaries are mapped to the floor, the
+// distance from each point of the left one to the right one is measured,
+// and their spread relative to their mean is the misfit, summed over the
+// recent frames. The horizon with the least misfit is kept, with the mean
+// distance there as the lane's width. A frame that fits no horizon within
+// 5 % (a boundary fitted off the tape somewhere) is left out.
+func (ln *Lane) learnFloor(l bandLayout, a, b *fitResult) {
+	pa, pb := ln.fa[:0], ln.fb[:0]
+	yTop := math.Inf(1)
+	for k := 0; k < l.n; k += 2 {
+		y := l.centre(k)
+		if covers(a, l, y) {
+			pa = append(pa, [2]float64{a.centre.x(y), y})
+			yTop = math.Min(yTop, y)
+		}
+		if covers(b, l, y) {
+			pb = append(pb, [2]float64{b.centre.x(y), y})
+			yTop = math.Min(yTop, y)
+		}
+	}
+	ln.fa, ln.fb = pa, pb
+	if len(pa) < 5 || len(pb) < 5 {
+		return
+	}
+	m := ln.fm
+	g0 := -4 * m.cy                          // the grid: two image heights above the top …
+	gn := int((1.6*m.cy-g0)/horizonStep) + 1 // … to 0.8 of the height down
+	if len(ln.hcost) != gn {
+		ln.hcost, ln.hnum, ln.hden = make([]float64, gn), make([]float64, gn), make([]float64, gn)
+	}
+	cost, mean := ln.fcost[:0], ln.fmean[:0]
+	best := math.Inf(1)
+	qa, qb := ln.qa, ln.qb
+	for g := 0; g < gn; g++ {
+		m.setHorizon(g0 + float64(g)*horizonStep)
+		if m.yh > yTop-minHorizonGap {
+			// at or below the rows seen: ruled out by this frame
+			cost, mean = append(cost, 1), append(mean, 0)
+			continue
+		}
+		qa, qb = floorPoints(&m, pa, qa[:0]), floorPoints(&m, pb, qb[:0])
+		var n, sd, sdd float64
+		j := 0
+		for _, p := range qa {
+			// the nearest segment of b, searched on from the last one
+			d, jn, inside := nearestSegment(p, qb, j)
+			j = jn
+			if !inside {
+				continue
+			}
+			n++
+			sd += d
+			sdd += d * d
+		}
+		if n < 4 || sd <= 0 {
+			cost, mean = append(cost, 1), append(mean, 0)
+			continue
+		}
+		mu := sd / n
+		r2 := math.Max(sdd/n-mu*mu, 0) / (mu * mu)
+		best = math.Min(best, r2)
+		cost, mean = append(cost, r2), append(mean, mu)
+	}
+	ln.fcost, ln.fmean, ln.qa, ln.qb = cost, mean, qa, qb
+	if best > 0.05*0.05 {
+		return
+	}
+	gb := 0
+	for g := range ln.hcost {
+		ln.hcost[g] = floorMemory*ln.hcost[g] + cost[g]
+		ln.hnum[g] = floorMemory * ln.hnum[g]
+		ln.hden[g] = floorMemory * ln.hden[g]
+		if mean[g] > 0 {
+			ln.hnum[g] += mean[g]
+			ln.hden[g]++
+		}
+		if ln.hcost[g] < ln.hcost[gb] {
+			gb = g
+		}
+	}
+	if ln.hden[gb] <= 0 {
+		return
+	}
+	yh := g0 + float64(gb)*horizonStep
+	if gb > 0 && gb < gn-1 {
+		// parabola through the least misfit and its neighbours
+		c0, c1, c2 := ln.hcost[gb-1], ln.hcost[gb], ln.hcost[gb+1]
+		if d := c0 - 2*c1 + c2; d > 0 {
+			yh += horizonStep * math.Max(-0.5, math.Min(0.5, (c0-c2)/(2*d)))
+		}
+	}
+	W := ln.hnum[gb] / ln.hden[gb]
+	m.setHorizon(yh)
+	m.w = W
+	m.ok = W > 0
+	ln.fm = m
+}
+
+// floorPoints maps image points to the floor (X, Z), appended to dst;
+// points at or above the horizon are left out.
+func floorPoints(m *floorModel, pts [][2]float64, dst [][2]float64) [][2]float64 {
+	for _, p := range pts {
+		if X, Z, ok := m.toFloor(p[0], p[1]); ok {
+			dst = append(dst, [2]float64{X, Z})
+		}
+	}
+	return dst
+}
+
+// nearestSegment is the distance from p to polyline q, looking at the
+// segments from j−2 on while the distance falls; inside is false when the
+// nearest point is an end of q (p lies beyond it, not beside it).
+func nearestSegment(p [2]float64, q [][2]float64, j int) (d float64, jn int, inside bool) {
+	d, jn = math.Inf(1), -1
+	var tn float64
+	for i := max(j-2, 0); i+1 < len(q); i++ {
+		a, b := q[i], q[i+1]
+		dx, dz := b[0]-a[0], b[1]-a[1]
+		L := dx*dx + dz*dz
+		t := 0.0
+		if L > 0 {
+			t = math.Max(0, math.Min(1, ((p[0]-a[0])*dx+(p[1]-a[1])*dz)/L))
+		}
+		di := math.Hypot(p[0]-a[0]-t*dx, p[1]-a[1]-t*dz)
+		if di < d {
+			d, jn, tn = di, i, t
+		} else if jn >= 0 && i > jn+2 {
+			break
+		}
+	}
+	if jn < 0 {
+		return d, j, false
+	}
+	inside = !(jn == 0 && tn <= 0) && !(jn == len(q)-2 && tn >= 1)
+	return d, jn, inside
 }
 
 // across is the horizontal lane width at band k, seen from boundary s
@@ -538,6 +706,17 @@ func (ln *Lane) centre(l bandLayout, a, b *fitResult) (fitResult, bool) {
 		switch {
 		case inA && inB:
 			x, wt = (a.centre.x(y)+b.centre.x(y))/2, 1
+		case (inA || inB) && ln.fm.ok:
+			// half the lane's width along the seen boundary's floor normal
+			p, d := a, ln.fm.w/2
+			if !inA {
+				p, d = b, -d
+			}
+			xc, yc, ok := ln.fm.beside(p.centre.x(y), y, p.centre.slope(y), d)
+			if !ok || yc < float64(l.y0) || yc > float64(l.y1) {
+				continue
+			}
+			x, y, wt = xc, yc, 0.5
 		case inA && ln.across(l, k, 0, a.centre.slope(y)) > 0:
 			x, wt = a.centre.x(y)+ln.across(l, k, 0, a.centre.slope(y))/2, 0.5
 		case inB && ln.across(l, k, 1, b.centre.slope(y)) > 0:
@@ -565,7 +744,12 @@ func (ln *Lane) centre(l bandLayout, a, b *fitResult) (fitResult, bool) {
 		return r, false
 	}
 	r.centre = curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
-	if !plausible(r.centre, l) {
+	// Plausible over the stretch it was fitted on: where the boundaries
+	// were fitted over the nearer rows only (a bend), a quadratic run out
+	// to the far end of the ROI may lean or bend past the limits.
+	over := l
+	over.y0, over.y1 = int(math.Floor(r.yLo)), int(math.Ceil(r.yHi))
+	if !plausible(r.centre, over) {
 		return r, false
 	}
 	// Summaries: the support and quality of the boundaries used.

@@ -26,6 +26,28 @@ type LaneConfig struct {
 	// boundary may have; a line made mostly of clipped pixels is taken for
 	// a mirrored lamp, not tape (default 0.5).
 	MaxSaturated float64
+	// WidthPx is the lane's width, centre to centre of its lines, in
+	// input pixels along the reference row with the vehicle straight in
+	// the lane (0: learned). Without a calibration it replaces the learned
+	// width once the horizon is learned (both lines seen for a moment),
+	// and pairs of lines whose width is far from it are no lane.
+	WidthPx float64
+	// WidthMM is the lane's width on the floor, centre to centre of its
+	// lines, in millimetres (0: learned). It needs Floor.
+	WidthMM float64
+	// Floor is the floor calibration (nil: none). With it the centre is
+	// inferred from one line on the floor itself: half the lane's width
+	// (WidthMM, or the width learned on the floor) along the line's
+	// normal. The Lane only reads it.
+	Floor FloorPlane
+}
+
+// FloorPlane is a floor calibration both ways: FloorMap, and the raw
+// image pixel of a floor point (millimetres, forward and right), ok false
+// behind the camera. calib.Mapper provides both.
+type FloorPlane interface {
+	FloorMap
+	ToImageMM(forward, right float64) (x, y float64, ok bool)
 }
 
 // DefaultLaneConfig returns the settings described on each field.
@@ -44,6 +66,18 @@ func (lc LaneConfig) Validate() error {
 	}
 	if !(lc.MaxSaturated >= 0 && lc.MaxSaturated <= 1) {
 		errs = append(errs, fmt.Errorf("vision: lane max saturated share %v: want [0, 1]", lc.MaxSaturated))
+	}
+	if !(lc.WidthPx >= 0 && lc.WidthPx < 1e5) {
+		errs = append(errs, fmt.Errorf("vision: lane width %v px: want 0 (learned) or a positive width", lc.WidthPx))
+	}
+	if !(lc.WidthMM >= 0 && lc.WidthMM < 1e5) {
+		errs = append(errs, fmt.Errorf("vision: lane width %v mm: want 0 (learned) or a positive width", lc.WidthMM))
+	}
+	if lc.WidthMM > 0 && lc.Floor == nil {
+		errs = append(errs, fmt.Errorf("vision: lane width %v mm needs a floor calibration", lc.WidthMM))
+	}
+	if lc.WidthMM > 0 && lc.WidthPx > 0 {
+		errs = append(errs, fmt.Errorf("vision: lane width given both in mm (%v) and px (%v): give one", lc.WidthMM, lc.WidthPx))
 	}
 	return errors.Join(errs...)
 }
@@ -95,9 +129,17 @@ type Lane struct {
 	// the centre is then inferred from one boundary along its normal on
 	// the floor.
 	fm floorModel
+	// cal is the floor calibration in working pixels (with lc.Floor),
+	// calW the lane's width learned on it (mm, 0 until learned).
+	cal  calibFloor
+	calW float64
+	yRef float64 // the reference row, working pixels
 	// hcost[g] is the misfit of horizon row g (learnFloor's grid) summed
 	// over the recent frames, hnum/hden the sums giving W there.
 	hcost, hnum, hden []float64
+	// hTried and hFit count (decaying as hcost) the frames tried and
+	// those that fit a horizon within 1 %.
+	hTried, hFit float64
 	// scratch for learnFloor
 	fa, fb, qa, qb []([2]float64)
 	fcost, fmean   []float64
@@ -132,7 +174,8 @@ func (ln *Lane) Close() error { return ln.c.Close() }
 // Reset forgets the learned width and the last boundaries (a new clip).
 func (ln *Lane) Reset() {
 	clear(ln.width)
-	ln.prevOK, ln.wlineOK, ln.fm.ok = false, false, false
+	ln.prevOK, ln.wlineOK, ln.fm.ok, ln.calW = false, false, false, 0
+	ln.hTried, ln.hFit = 0, 0
 	clear(ln.hcost)
 	clear(ln.hnum)
 	clear(ln.hden)
@@ -157,11 +200,12 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	if k := [3]int{fr.ww, fr.wh, l.n}; k != ln.key || len(ln.width) != l.n {
 		ln.key, ln.width, ln.prevOK, ln.wlineOK = k, make([]float64, l.n), false, false
 		ln.fm = floorModel{cx: float64(fr.ww) / 2, cy: float64(fr.wh) / 2, f: assumedFocal * float64(fr.ww)}
-		ln.hcost, ln.hnum, ln.hden = nil, nil, nil
+		ln.hcost, ln.hnum, ln.hden, ln.hTried, ln.hFit = nil, nil, nil, 0, 0
 		ln.turn = [2][]float64{make([]float64, l.n), make([]float64, l.n)}
 	}
 	yRefIn := c.cfg.RefRow * fr.inH
 	yRefW := fr.toWorkY(yRefIn)
+	ln.cal.fr, ln.cal.m, ln.yRef = fr, ln.lc.Floor, yRefW
 	c.rng = frameSeed
 	var pols []bool
 	if wantLight {
@@ -188,7 +232,7 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	if both {
 		ln.learn(l, left, right)
 	}
-	cr, ok := ln.centre(l, left, right)
+	cr, ok := ln.centre(l, left, right, yRefW)
 	if !ok {
 		return laneNotFound("one boundary and no lane width learned there yet")
 	}
@@ -217,6 +261,9 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 			seen, s = right, 1
 		}
 		m.WidthPx = ln.across(l, bandOf(l, yRefW), s, seen.centre.slope(yRefW)) / fr.sx
+		if ln.lc.WidthPx > 0 && ln.lc.Floor == nil {
+			m.WidthPx = ln.lc.WidthPx
+		}
 		d.Confidence *= ln.lc.OneSideFactor
 		d.Reason = "one boundary: centre from the learned lane width"
 	}
@@ -417,6 +464,9 @@ func (ln *Lane) pair(l bandLayout, a, b *fitResult) bool {
 	if b.centre.x(hi)-a.centre.x(hi) < 4*math.Max(math.Max(a.width.x(hi), b.width.x(hi)), 1) {
 		return false
 	}
+	if !ln.widthAgrees(a, b) {
+		return false
+	}
 	for k := 0; k < l.n; k++ {
 		y := l.centre(k)
 		if y < lo || y > hi {
@@ -432,6 +482,41 @@ func (ln *Lane) pair(l bandLayout, a, b *fitResult) bool {
 		}
 	}
 	return true
+}
+
+// configuredTol is how far (as a factor) a pair's width across the lane
+// may be from the configured width: a pair that far off is another pair
+// of lines, or the configuration is wrong; either way no lane is taken
+// from it (the fail-safe follows rather than a guess).
+const configuredTol = 1.25
+
+// widthAgrees reports whether the pair a, b is as wide as the configured
+// lane width (true when none is configured), along the reference row:
+// with a calibration, the distance on the floor from b to a's tangent;
+// without, the horizontal width in pixels times the cosine of the pair's
+// mean image angle.
+func (ln *Lane) widthAgrees(a, b *fitResult) bool {
+	y, fr := ln.yRef, ln.cal.fr
+	xa, xb := a.xAt(y), b.xAt(y)
+	var w, want float64
+	switch {
+	case ln.lc.Floor != nil && ln.lc.WidthMM > 0:
+		Xa, Za, ok1 := ln.cal.toFloor(xa, y)
+		Xt, Zt, ok2 := ln.cal.toFloor(xa-a.slopeAt(y), y-1)
+		Xb, Zb, ok3 := ln.cal.toFloor(xb, y)
+		n := math.Hypot(Xt-Xa, Zt-Za)
+		if !ok1 || !ok2 || !ok3 || n == 0 {
+			return false
+		}
+		w = math.Abs((Xt-Xa)*(Zb-Za)-(Zt-Za)*(Xb-Xa)) / n
+		want = ln.lc.WidthMM
+	case ln.lc.Floor == nil && ln.lc.WidthPx > 0:
+		w = (xb - xa) / fr.sx * math.Cos(math.Atan((a.slopeAt(y)+b.slopeAt(y))/2))
+		want = ln.lc.WidthPx
+	default:
+		return true
+	}
+	return w <= configuredTol*want && w >= want/configuredTol
 }
 
 // learned reports whether a width is known in at least a fifth of the
@@ -490,7 +575,11 @@ func (ln *Lane) learn(l bandLayout, a, b *fitResult) {
 		ln.wline = curve{a: (sw - b*sy) / n, b: b, scale: 1}
 		ln.wlineOK = true
 	}
-	ln.learnFloor(l, a, b)
+	if ln.lc.Floor != nil {
+		ln.learnCalibrated(l, a, b)
+	} else {
+		ln.learnFloor(l, a, b)
+	}
 }
 
 // floorMemory is the share of the floor model's evidence kept from one
@@ -514,20 +603,7 @@ const horizonStep = 2
 // distance there as the lane's width. A frame that fits no horizon within
 // 5 % (a boundary fitted off the tape somewhere) is left out.
 func (ln *Lane) learnFloor(l bandLayout, a, b *fitResult) {
-	pa, pb := ln.fa[:0], ln.fb[:0]
-	yTop := math.Inf(1)
-	for k := 0; k < l.n; k += 2 {
-		y := l.centre(k)
-		if covers(a, l, y) {
-			pa = append(pa, [2]float64{a.centre.x(y), y})
-			yTop = math.Min(yTop, y)
-		}
-		if covers(b, l, y) {
-			pb = append(pb, [2]float64{b.centre.x(y), y})
-			yTop = math.Min(yTop, y)
-		}
-	}
-	ln.fa, ln.fb = pa, pb
+	pa, pb, yTop := ln.sample(l, a, b)
 	if len(pa) < 5 || len(pb) < 5 {
 		return
 	}
@@ -548,32 +624,22 @@ func (ln *Lane) learnFloor(l bandLayout, a, b *fitResult) {
 			continue
 		}
 		qa, qb = floorPoints(&m, pa, qa[:0]), floorPoints(&m, pb, qb[:0])
-		var n, sd, sdd float64
-		j := 0
-		for _, p := range qa {
-			// the nearest segment of b, searched on from the last one
-			d, jn, inside := nearestSegment(p, qb, j)
-			j = jn
-			if !inside {
-				continue
-			}
-			n++
-			sd += d
-			sdd += d * d
-		}
-		if n < 4 || sd <= 0 {
+		mu, r2, ok := floorSpread(qa, qb)
+		if !ok {
 			cost, mean = append(cost, 1), append(mean, 0)
 			continue
 		}
-		mu := sd / n
-		r2 := math.Max(sdd/n-mu*mu, 0) / (mu * mu)
 		best = math.Min(best, r2)
 		cost, mean = append(cost, r2), append(mean, mu)
 	}
 	ln.fcost, ln.fmean, ln.qa, ln.qb = cost, mean, qa, qb
-	if best > 0.05*0.05 {
+	ln.hTried = floorMemory*ln.hTried + 1
+	ln.hFit *= floorMemory
+	if best > 0.01*0.01 {
+		ln.fm.ok = ln.fm.ok && ln.hFit >= 0.5*ln.hTried
 		return
 	}
+	ln.hFit++
 	gb := 0
 	for g := range ln.hcost {
 		ln.hcost[g] = floorMemory*ln.hcost[g] + cost[g]
@@ -601,13 +667,15 @@ func (ln *Lane) learnFloor(l bandLayout, a, b *fitResult) {
 	W := ln.hnum[gb] / ln.hden[gb]
 	m.setHorizon(yh)
 	m.w = W
-	m.ok = W > 0
+	// A lens the pinhole model does not describe (strong distortion) fits
+	// in few frames: the model is then not used.
+	m.ok = W > 0 && ln.hFit >= 0.5*ln.hTried
 	ln.fm = m
 }
 
 // floorPoints maps image points to the floor (X, Z), appended to dst;
 // points at or above the horizon are left out.
-func floorPoints(m *floorModel, pts [][2]float64, dst [][2]float64) [][2]float64 {
+func floorPoints(m laneFloor, pts [][2]float64, dst [][2]float64) [][2]float64 {
 	for _, p := range pts {
 		if X, Z, ok := m.toFloor(p[0], p[1]); ok {
 			dst = append(dst, [2]float64{X, Z})
@@ -693,11 +761,12 @@ func bandOf(l bandLayout, y float64) int {
 // bands both cover, half the learned width from the one boundary where
 // only one does (at half weight). The result carries the boundaries'
 // summaries, so that the stripe detector's confidence factors apply.
-func (ln *Lane) centre(l bandLayout, a, b *fitResult) (fitResult, bool) {
+func (ln *Lane) centre(l bandLayout, a, b *fitResult, yRefW float64) (fitResult, bool) {
 	var A [3][3]float64
 	var B [3]float64
 	y0, sc := float64(l.y1), float64(l.y1-l.y0)
 	r := fitResult{ok: true, yLo: math.Inf(1), yHi: math.Inf(-1)}
+	fl, fw, fok := ln.floor(yRefW)
 	n := 0
 	for k := 0; k < l.n; k++ {
 		y := l.centre(k)
@@ -706,13 +775,13 @@ func (ln *Lane) centre(l bandLayout, a, b *fitResult) (fitResult, bool) {
 		switch {
 		case inA && inB:
 			x, wt = (a.centre.x(y)+b.centre.x(y))/2, 1
-		case (inA || inB) && ln.fm.ok:
+		case (inA || inB) && fok:
 			// half the lane's width along the seen boundary's floor normal
-			p, d := a, ln.fm.w/2
+			p, d := a, fw/2
 			if !inA {
 				p, d = b, -d
 			}
-			xc, yc, ok := ln.fm.beside(p.centre.x(y), y, p.centre.slope(y), d)
+			xc, yc, ok := beside(fl, p.centre.x(y), y, p.centre.slope(y), d)
 			if !ok || yc < float64(l.y0) || yc > float64(l.y1) {
 				continue
 			}
@@ -744,6 +813,19 @@ func (ln *Lane) centre(l bandLayout, a, b *fitResult) (fitResult, bool) {
 		return r, false
 	}
 	r.centre = curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
+	// Where the centre comes from one boundary, the lane's centre beside
+	// that boundary's far end lies nearer in the image when the lane bends
+	// towards the other side: the centre is run out to the boundary's far
+	// end, as the lane runs on there.
+	if fok && (a == nil || b == nil) {
+		p := a
+		if p == nil {
+			p = b
+		}
+		if p.yLo < r.yLo && r.yHi-r.yLo > 0.25*float64(l.y1-l.y0) {
+			r.yLo = math.Max(p.yLo, r.yLo-0.5*(r.yHi-r.yLo))
+		}
+	}
 	// Plausible over the stretch it was fitted on: where the boundaries
 	// were fitted over the nearer rows only (a bend), a quadratic run out
 	// to the far end of the ROI may lean or bend past the limits.

@@ -1,6 +1,8 @@
 package vision
 
-import "math"
+import (
+	"math"
+)
 
 // floorModel maps working pixels to a flat floor and back without a
 // calibration, up to the floor's unknown scale, for a pinhole camera with
@@ -17,8 +19,8 @@ import "math"
 // which is a guess without a calibration (assumedFocal).
 //
 // On this floor the lane's centre is half the lane's width from a
-// boundary along the boundary's normal, which in the image is neither
-// horizontal nor the image normal once the lane bends.
+// boundary along the boundary's normal (beside), which in the image is
+// neither horizontal nor the image normal once the lane bends.
 type floorModel struct {
 	ok     bool
 	yh     float64 // horizon row, working pixels
@@ -67,31 +69,144 @@ func (m *floorModel) toImage(X, Z float64) (x, y float64, ok bool) {
 	return m.cx + X*s, m.yh + s, true
 }
 
-// tangent is the floor direction dX/dZ of an image line through (x, y)
-// with image slope dx/dy.
-func (m *floorModel) tangent(x, y, slope float64) float64 {
-	return (x - m.cx - slope*(y-m.yh)) / m.k
+// laneFloor maps working pixels to floor coordinates (lateral X to the
+// right, forward Z, in one unit) and back: the learned floorModel, or a
+// calibration (calibFloor).
+type laneFloor interface {
+	toFloor(x, y float64) (X, Z float64, ok bool)
+	toImage(X, Z float64) (x, y float64, ok bool)
 }
 
-// beside is the image point at distance d (floor units) from the line
-// through (x, y) with image slope dx/dy, along the line's floor normal,
-// to the right for d > 0.
-func (m *floorModel) beside(x, y, slope, d float64) (xc, yc float64, ok bool) {
-	X, Z, ok := m.toFloor(x, y)
+// calibFloor is a floor calibration in working pixels, millimetres on the
+// floor.
+type calibFloor struct {
+	fr frameGeom
+	m  FloorPlane
+}
+
+func (c *calibFloor) toFloor(x, y float64) (X, Z float64, ok bool) {
+	fwd, right, ok := c.m.ToFloorMM(c.fr.toInX(x), c.fr.toInY(y))
+	if !ok || math.IsNaN(fwd) || math.IsNaN(right) || fwd <= 0 {
+		return 0, 0, false
+	}
+	return right, fwd, true
+}
+
+func (c *calibFloor) toImage(X, Z float64) (x, y float64, ok bool) {
+	xi, yi, ok := c.m.ToImageMM(Z, X)
+	if !ok || math.IsNaN(xi) || math.IsNaN(yi) {
+		return 0, 0, false
+	}
+	return c.fr.toWorkX(xi), c.fr.toWorkY(yi), true
+}
+
+// beside is the image point at distance d (floor units) from the image
+// line through (x, y) with slope dx/dy, along the line's normal on the
+// floor, to the right for d > 0. The line's floor direction is taken
+// between its points at y and one working pixel farther up.
+func beside(f laneFloor, x, y, slope, d float64) (xc, yc float64, ok bool) {
+	X, Z, ok := f.toFloor(x, y)
 	if !ok {
 		return 0, 0, false
 	}
-	t := m.tangent(x, y, slope)
-	n := math.Sqrt(1 + t*t)
-	// Unit tangent (t, 1)/n points ahead; its right-hand normal is (1, −t)/n.
-	return m.toImage(X+d/n, Z-d*t/n)
+	X2, Z2, ok := f.toFloor(x-slope, y-1)
+	if !ok {
+		return 0, 0, false
+	}
+	tx, tz := X2-X, Z2-Z
+	n := math.Hypot(tx, tz)
+	if n == 0 || tz <= 0 {
+		return 0, 0, false // not a line running away from the camera
+	}
+	tx, tz = tx/n, tz/n
+	// the right-hand normal of the forward unit tangent (tx, tz)
+	return f.toImage(X+d*tz, Z-d*tx)
 }
 
-// perpWidth is the width across a lane whose boundaries cross row y at
-// xl and xr, with the centre's image slope there: the horizontal width on
-// the floor times the cosine of the centre's floor angle, in image
-// pixels at row y (so that on a straight lane it is W·(y − yh)).
-func (m *floorModel) perpWidth(xl, xr, y, slope float64) float64 {
-	t := m.tangent((xl+xr)/2, y, slope)
-	return (xr - xl) / math.Sqrt(1+t*t)
+// floor is the floor the centre is inferred on and the lane's width
+// there: the calibration with the configured or learned width on it, or
+// the learned floor model with the configured width (input pixels at the
+// reference row, yRefW in working rows) or the learned one. ok false when
+// neither is known yet.
+func (ln *Lane) floor(yRefW float64) (f laneFloor, w float64, ok bool) {
+	if ln.lc.Floor != nil {
+		w = ln.lc.WidthMM
+		if w == 0 {
+			w = ln.calW
+		}
+		return &ln.cal, w, w > 0
+	}
+	if !ln.fm.ok {
+		return nil, 0, false
+	}
+	w = ln.fm.w
+	if ln.lc.WidthPx > 0 {
+		if s := yRefW - ln.fm.yh; s >= minHorizonGap {
+			w = ln.lc.WidthPx * ln.cal.fr.sx / s
+		}
+	}
+	return &ln.fm, w, w > 0
+}
+
+// sample is points of a and b every second band over their stretches
+// (working pixels, x then y), and the highest row among them.
+func (ln *Lane) sample(l bandLayout, a, b *fitResult) (pa, pb [][2]float64, yTop float64) {
+	pa, pb = ln.fa[:0], ln.fb[:0]
+	yTop = math.Inf(1)
+	for k := 0; k < l.n; k += 2 {
+		y := l.centre(k)
+		if covers(a, l, y) {
+			pa = append(pa, [2]float64{a.centre.x(y), y})
+			yTop = math.Min(yTop, y)
+		}
+		if covers(b, l, y) {
+			pb = append(pb, [2]float64{b.centre.x(y), y})
+			yTop = math.Min(yTop, y)
+		}
+	}
+	ln.fa, ln.fb = pa, pb
+	return pa, pb, yTop
+}
+
+// learnCalibrated learns the lane's width on the calibrated floor: the
+// mean distance from the left line's points to the right line, mapped to
+// the floor; a frame where it spreads by more than 5 % of the mean (a
+// line fitted off the tape somewhere) is left out.
+func (ln *Lane) learnCalibrated(l bandLayout, a, b *fitResult) {
+	pa, pb, _ := ln.sample(l, a, b)
+	qa, qb := floorPoints(&ln.cal, pa, ln.qa[:0]), floorPoints(&ln.cal, pb, ln.qb[:0])
+	ln.qa, ln.qb = qa, qb
+	mu, r2, ok := floorSpread(qa, qb)
+	if !ok || r2 > 0.05*0.05 {
+		return
+	}
+	if ln.calW == 0 {
+		ln.calW = mu
+	} else {
+		ln.calW += ln.lc.LearnRate * (mu - ln.calW)
+	}
+}
+
+// floorSpread is the mean distance from the points qa to the polyline qb
+// (counting only points beside it, not beyond its ends) and the variance
+// of the distances relative to the squared mean.
+func floorSpread(qa, qb [][2]float64) (mu, r2 float64, ok bool) {
+	var n, sd, sdd float64
+	j := 0
+	for _, p := range qa {
+		// the nearest segment of qb, searched on from the last one
+		d, jn, inside := nearestSegment(p, qb, j)
+		j = jn
+		if !inside {
+			continue
+		}
+		n++
+		sd += d
+		sdd += d * d
+	}
+	if n < 4 || sd <= 0 {
+		return 0, 0, false
+	}
+	mu = sd / n
+	return mu, math.Max(sdd/n-mu*mu, 0) / (mu * mu), true
 }

@@ -152,6 +152,8 @@ func replayFlags(fs *flag.FlagSet) *replayOptions {
 	o := &replayOptions{vision: vision.DefaultConfig()}
 	def := guidance.DefaultConfig()
 	fs.StringVar(&o.follow, "follow", "stripe", "what to follow: `stripe` (one line) or lane (the centre between two boundary lines); demo scenes carry their own")
+	fs.Float64Var(new(float64), "lane-width-mm", 0, "lane mode: the lane's width on the floor in `MM`, centre to centre of its lines (needs -calib; 0 = learned while both lines are seen)")
+	fs.Float64Var(new(float64), "lane-width-px", 0, "lane mode without a calibration: the lane's width in `PX` along the reference row (0 = learned)")
 	fs.DurationVar(new(time.Duration), "failsafe", def.FailSafeAfter, "raise the fail-safe alarm after this long without a trusted measurement")
 	fs.DurationVar(new(time.Duration), "reacquire", def.ReacquireFor, "see the line this long before guidance resumes after a loss")
 	fs.String("polarity", "auto", "stripe lighter or darker than the floor: auto, light or dark")

@@ -73,4 +73,18 @@ func TestReplayFollowLane(t *testing.T) {
 	if code, _, se := runCmd(t, "replay", "-follow", "zigzag", "-out", out, clip); code != 2 {
 		t.Errorf("-follow zigzag: exit %d, %s", code, se)
 	}
+	// A configured lane width: the right one (337 px, as above) tracks the
+	// centre; one 40 % too wide makes the two lines no lane, so nothing is
+	// tracked and nothing falsely; millimetres need a calibration.
+	if code, so, se := runCmd(t, "replay", "-follow", "lane", "-lane-width-px", "337", "-truth", tp, "-out", out, clip); code != 0 ||
+		!strings.Contains(so, "false tracks 0,") || !regexp.MustCompile(`recall (0\.8[5-9]|0\.9|1\.0)`).MatchString(so) {
+		t.Errorf("-lane-width-px 337: exit %d: %s %s", code, so, se)
+	}
+	if code, so, se := runCmd(t, "replay", "-follow", "lane", "-lane-width-px", "472", "-truth", tp, "-out", out, clip); code != 0 ||
+		!strings.Contains(so, "recall 0.000") || !strings.Contains(so, "false tracks 0,") {
+		t.Errorf("-lane-width-px 472 (40 %% too wide): exit %d: %s %s", code, so, se)
+	}
+	if code, _, se := runCmd(t, "replay", "-follow", "lane", "-lane-width-mm", "900", "-out", out, clip); code != 2 || !strings.Contains(se, "needs a calibration") {
+		t.Errorf("-lane-width-mm without -calib: exit %d, %s", code, se)
+	}
 }

@@ -87,7 +87,16 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 		if o.cnn || o.cnnCheck > 0 {
 			return nil, nil, usagef("-cnn and -cnn-check work in stripe mode only (the shipped model knows one stripe, not a lane)")
 		}
-		ln, err := vision.NewLane(vcfg, vision.DefaultLaneConfig())
+		lc := vision.DefaultLaneConfig()
+		if o.site != nil {
+			lc.WidthMM, lc.WidthPx = float64(o.site.Lane.WidthMM), o.site.Lane.WidthPx
+		}
+		if o.calib != "" {
+			if lc.Floor, err = loadFloorPlane(o.calib); err != nil {
+				return nil, nil, err
+			}
+		}
+		ln, err := vision.NewLane(vcfg, lc)
 		if err != nil {
 			return nil, nil, err
 		}
@@ -163,12 +172,32 @@ func floorROI(cfg vision.Config, path string) (vision.Config, error) {
 	return cfg, nil
 }
 
-// floorPoints adapts calib.Mapper to vision.FloorMap.
+// floorPoints adapts calib.Mapper to vision.FloorMap and
+// vision.FloorPlane.
 type floorPoints struct{ m *calib.Mapper }
 
 func (f floorPoints) ToFloorMM(x, y float64) (float64, float64, bool) {
 	p, ok := f.m.ToFloor(calib.Pt{X: x, Y: y})
 	return p.X, p.Y, ok
+}
+
+func (f floorPoints) ToImageMM(forward, right float64) (float64, float64, bool) {
+	p, ok := f.m.ToImage(calib.Pt{X: forward, Y: right})
+	return p.X, p.Y, ok
+}
+
+// loadFloorPlane is the calibration file at path as the lane detector's
+// floor.
+func loadFloorPlane(path string) (vision.FloorPlane, error) {
+	f, err := calib.Load(path)
+	if err != nil {
+		return nil, err
+	}
+	m, err := calib.NewMapper(f)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	return floorPoints{m}, nil
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {

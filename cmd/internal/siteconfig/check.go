@@ -22,6 +22,11 @@ const (
 	// or inches instead of millimetres).
 	MinTapeWidthMM = 5
 	MaxTapeWidthMM = 300
+	// MinLaneWidthMM and MaxLaneWidthMM bound a plausible marked lane,
+	// centre to centre of its lines: from a narrow test track to a wide
+	// aisle (a judgement, not a standard).
+	MinLaneWidthMM = 300
+	MaxLaneWidthMM = 10000
 	// MaxFailSafeAfter is the longest accepted fail-safe delay. Our own
 	// choice: at 1 m/s a cart would drive 2 m without a trusted line
 	// before the alarm sounds.
@@ -145,6 +150,20 @@ func (s *Site) check(failed map[string]bool) []Problem {
 	case "stripe", "lane":
 	default:
 		c.bad("follow", "%q is not a follow mode (want stripe or lane)", s.Follow)
+	}
+
+	// lane
+	ln := s.Lane
+	if w := float64(ln.WidthMM); !finite(w) || w != 0 && (w < MinLaneWidthMM || w > MaxLaneWidthMM) {
+		c.bad("lane.width_mm", "%v mm is not a plausible lane width (want %d..%d mm, or 0 to learn it)", w, MinLaneWidthMM, MaxLaneWidthMM)
+	} else if w > 0 && s.Calibration.File == "" {
+		c.bad("lane.width_mm", "a lane width in mm needs a calibration (calibration.file); without one give lane.width_px")
+	}
+	if w := ln.WidthPx; !finite(w) || w < 0 || w > 20000 {
+		c.bad("lane.width_px", "%v px is not a lane width (want more than 0, or 0 to learn it)", w)
+	}
+	if ln.WidthMM > 0 && ln.WidthPx > 0 {
+		c.bad("lane.width_px", "give the lane width once: width_mm (with a calibration) or width_px")
 	}
 
 	// detector

@@ -14,6 +14,8 @@ import (
 var FlagFields = map[string]string{
 	"camera":         "camera.device",
 	"follow":         "follow",
+	"lane-width-mm":  "lane.width_mm",
+	"lane-width-px":  "lane.width_px",
 	"polarity":       "detector.polarity",
 	"failsafe":       "alarm.fail_safe_after",
 	"reacquire":      "alarm.reacquire_for",
@@ -76,6 +78,9 @@ func (s *Site) set(path string, v any) error {
 	switch {
 	case val.Type() == f.Type():
 		f.Set(val)
+	case val.Kind() == reflect.Float64 && f.Kind() == reflect.Float64:
+		// a float flag for a typed float field (millimetres)
+		f.SetFloat(val.Float())
 	case val.Kind() == reflect.String && f.Kind() == reflect.String:
 		f.SetString(val.String())
 	case val.Kind() == reflect.String:

@@ -20,6 +20,7 @@ type Site struct {
 	// Follow is what the vehicle follows: "stripe" (one taped or painted
 	// line) or "lane" (the centre of the space between two lines).
 	Follow      string      `yaml:"follow"`
+	Lane        Lane        `yaml:"lane"`
 	Detector    Detector    `yaml:"detector"`
 	Alarm       Alarm       `yaml:"alarm"`
 	Track       Tracker     `yaml:"tracker"`
@@ -33,6 +34,18 @@ type Site struct {
 	lines map[string]int
 	// flags holds the flag that set each field path, when one did.
 	flags map[string]string
+}
+
+// Lane holds the lane mode's settings (follow: lane).
+type Lane struct {
+	// WidthMM is the lane's width on the floor, centre to centre of its
+	// two lines; it needs a calibration. 0: learned while both lines are
+	// seen.
+	WidthMM calib.Millimetres `yaml:"width_mm"`
+	// WidthPx is the lane's width in image pixels along the reference row
+	// with the vehicle straight in the lane, for a camera without a
+	// calibration. 0: learned.
+	WidthPx float64 `yaml:"width_px"`
 }
 
 // Camera selects the camera and, optionally, its mode. Zero values mean

@@ -196,7 +196,7 @@ func TestLaneWidthSettings(t *testing.T) {
 		{name: "px", lc: func(c *LaneConfig) { c.WidthPx = widthPx }, minRecall: 0.98, maxRecall: 1},
 		{name: "mm", lc: func(c *LaneConfig) { c.WidthMM, c.Floor = 900, floor }, minRecall: 0.98, maxRecall: 1},
 		{name: "px 40 % too wide", lc: func(c *LaneConfig) { c.WidthPx = 1.4 * widthPx }, minRecall: 0, maxRecall: 0},
-		{name: "mm 40 % too narrow", lc: func(c *LaneConfig) { c.WidthMM, c.Floor = 900 / 1.4, floor }, minRecall: 0, maxRecall: 0},
+		{name: "mm 40 % too narrow", lc: func(c *LaneConfig) { c.WidthMM, c.Floor = 900/1.4, floor }, minRecall: 0, maxRecall: 0},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			lc := DefaultLaneConfig()

@@ -43,7 +43,9 @@ const (
 //  4. fit a centreline x = a + b·y + c·y² to the candidates with RANSAC,
 //     gated by the tracker's prediction when the Hint is valid, then by
 //     weighted least squares on the inliers, rejecting candidates whose
-//     width disagrees with the fitted width profile;
+//     width disagrees with the fitted width profile; a dotted or dashed
+//     line is accepted with support in a fifth of its bands when that
+//     support forms at least three separate marks;
 //  5. choose among the channels' lines by their support summed over every
 //     channel (tape that is both lighter and coloured beats a tyre mark
 //     that is only darker), keeping only lines that reach the reference

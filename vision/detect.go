@@ -273,14 +273,22 @@ func (c *Classical) gate(fr frameGeom, hint Hint, yRefW float64) {
 }
 
 // acceptable: a fit that spans at least MinSpan of the ROI with support
-// in at least a third of the bands along it.
+// in at least a third of the bands along it, or, for a dotted or dashed
+// line, in a fifth of them spread over at least three separate marks
+// (runs of two or more bands). Round dots every few times their size
+// cover a quarter to a third of the rows, and their ends, narrow and
+// faint, less; support scattered over single bands (clutter a line
+// happens to cross) is not a row of marks.
 func (c *Classical) acceptable(r *fitResult, l bandLayout) bool {
 	if r == nil || !r.ok || r.inliers < 5 {
 		return false
 	}
 	span := (r.yHi - r.yLo + float64(l.step)) / float64(l.y1-l.y0)
 	bands := (r.yHi-r.yLo)/float64(l.step) + 1
-	return span >= c.cfg.MinSpan && float64(r.inliers) >= bands/3
+	if span < c.cfg.MinSpan {
+		return false
+	}
+	return float64(r.inliers) >= bands/3 || (r.marks(2) >= 3 && float64(r.inliers) >= bands/5)
 }
 
 func (c *Classical) whyNot(l bandLayout) string {

@@ -70,6 +70,23 @@ func (r *fitResult) dashed(l bandLayout) bool {
 	return float64(longest*l.step) >= 0.05*float64(l.y1-l.y0)
 }
 
+// marks counts the stretches of at least minLen consecutive supporting
+// bands along the line (a dash or a dot each, on a marked line).
+func (r *fitResult) marks(minLen int) int {
+	n, run := 0, 0
+	for _, i := range r.bands {
+		if i < 0 {
+			run = 0
+			continue
+		}
+		run++
+		if run == minLen {
+			n++
+		}
+	}
+	return n
+}
+
 // slopeAt is dx/dy of xAt at row y.
 func (r *fitResult) slopeAt(y float64) float64 {
 	return r.centre.slope(math.Min(math.Max(y, r.yLo), r.yHi))

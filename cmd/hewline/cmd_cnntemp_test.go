@@ -18,14 +18,7 @@ func TestCNNTemperatureUsage(t *testing.T) {
 		"one bin":       {"cnn-temperature", "-bins", "1"},
 		"argument":      {"cnn-temperature", "x"},
 	}
-	for name, args := range tests {
-		t.Run(name, func(t *testing.T) {
-			var out, errb bytes.Buffer
-			if code := run(context.Background(), args, &out, &errb); code != 2 {
-				t.Errorf("exit %d, want 2 (stderr %q)", code, errb.String())
-			}
-		})
-	}
+	wantUsageErrors(t, tests)
 }
 
 // TestCNNTemperatureWritesModel fits the temperature on a few held-out

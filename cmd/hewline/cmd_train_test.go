@@ -20,14 +20,7 @@ func TestTrainUsage(t *testing.T) {
 		"unknown flag":  {"train", "-bogus"},
 		"negative data": {"train", "-synth", "-3"},
 	}
-	for name, args := range tests {
-		t.Run(name, func(t *testing.T) {
-			var out, errb bytes.Buffer
-			if code := run(context.Background(), args, &out, &errb); code != 2 {
-				t.Errorf("exit %d, want 2 (stderr %q)", code, errb.String())
-			}
-		})
-	}
+	wantUsageErrors(t, tests)
 }
 
 // TestTrainWritesModel trains for one short epoch and checks that the file

@@ -590,7 +590,7 @@ const floorMemory = 0.97
 
 // horizonStep is the spacing, in working pixels, of the horizon rows
 // tried (refined between them by a parabola).
-const horizonStep = 2
+const horizonStep = 4
 
 // learnFloor updates the floor model from a frame with both boundaries.
 // With the right horizon the lane mapped to the floor is as wide

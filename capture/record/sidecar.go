@@ -81,11 +81,17 @@ func ReadSidecar(path string) ([]time.Duration, error) {
 	if err != nil {
 		return nil, err
 	}
+	return Times(frames), nil
+}
+
+// Times returns each frame's source time (for
+// capture.VideoFile.UseTimestamps).
+func Times(frames []SidecarFrame) []time.Duration {
 	ts := make([]time.Duration, len(frames))
 	for i, f := range frames {
 		ts[i] = seconds(f.T)
 	}
-	return ts, nil
+	return ts
 }
 
 // ReadSidecarFull reads a sidecar's header and frame lines.

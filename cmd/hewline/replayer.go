@@ -252,11 +252,8 @@ func replayClip(ctx context.Context, clip, logPath, videoPath string, o *replayO
 	info := src.Info()
 	// A recording's sidecar gives the times the live run used.
 	if vf, ok := src.(*capture.VideoFile); ok {
-		if ts, err := record.ReadSidecar(record.SidecarPath(clip)); err == nil {
-			// The sidecar was just read whole; reading it again for the
-			// tracker events cannot fail differently.
-			_, frames, _ := record.ReadSidecarFull(record.SidecarPath(clip))
-			vf.UseTimestamps(ts)
+		if _, frames, err := record.ReadSidecarFull(record.SidecarPath(clip)); err == nil {
+			vf.UseTimestamps(record.Times(frames))
 			vf.UseEvents(record.Events(frames))
 			info.Kind = "recording"
 		}

@@ -380,10 +380,7 @@ func TestCameraRecordingReplaysDecisions(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		ts, err := record.ReadSidecar(record.SidecarPath(files[0]))
-		if err != nil {
-			t.Fatal(err)
-		}
+		ts := record.Times(side)
 		src, err := capture.Open(files[0])
 		if err != nil {
 			t.Fatal(err)

@@ -14,6 +14,13 @@ type Measurement struct {
 	OffsetPx, HeadingDeg float64
 	// Confidence in [0, 1].
 	Confidence float64
+	// ReachPx, when HasReach is true, is how far the measured line
+	// extends beyond the reference row toward its far end, in image rows:
+	// positive when it reaches past the reference row, negative when it
+	// ends short of it (the offset there would be an extrapolation). See
+	// "Seeing the line end" at Tracker.
+	ReachPx  float64
+	HasReach bool
 }
 
 // Estimate is the tracker's answer for one instant. Only an Estimate with
@@ -54,9 +61,21 @@ type Estimate struct {
 }
 
 // Tracker follows the stripe over time: a constant-velocity Kalman filter
-// per channel (offset, heading), a chi-square innovation gate, coasting
+// per channel (offset, heading), run as a small bank of process-noise
+// levels so that a hard weave is followed and a smooth run keeps a narrow
+// gate (ModelAccelFactors), a chi-square innovation gate, coasting
 // through short dropouts and the fail-safe state machine described at
 // State.
+//
+// Seeing the line end: coasting is for frames that cannot be read. When
+// the measurements report how far the line reaches past the reference row
+// (Measurement.ReachPx) and that reach has been shrinking steadily, the
+// line is running out (its end, or a gap, coming toward the camera); the
+// tracker then goes Lost as soon as the line ends short of the reference
+// row, seen or extrapolated, instead of coasting for FailSafeAfter on a
+// line that is no longer there. A dashed line's fitted far end stays far,
+// so dashes do not trigger it; a single short detection is refused, never
+// an alarm on its own (reach.go).
 //
 // Time is passed in as a time.Duration since any fixed origin (frame
 // timestamps in replay, an injected Clock in live operation); it must not go
@@ -83,8 +102,11 @@ type Tracker struct {
 	note        string        // why the latest frame was not used
 	lostReason  string        // why the fail-safe turned on
 
-	off, head KalmanCV
+	off, head KalmanCV      // the filter in use: a copy of bank's selected model
+	bank      modelBank     // motion models compared on the measurements (models.go)
+	reach     reachTrack    // how far the accepted lines reached (reach.go)
 	filterT   time.Duration // time the filter state refers to
+	updateT   time.Duration // time of the bank's latest update
 
 	// Acquisition run (Seeking, Regaining): measurements agreeing with
 	// each other, with no gap longer than MaxFrameGap.
@@ -144,6 +166,7 @@ func (t *Tracker) Reset() {
 		head:    NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg),
 	}
 	t.cand.off, t.cand.head = t.off, t.head
+	t.bank.setNoise(cfg.OffsetAccel*s, cfg.OffsetNoisePx*s, cfg.HeadingAccel, cfg.HeadingNoiseDeg)
 }
 
 // RefWidthPx is the frame width at which Config's pixel settings
@@ -170,6 +193,8 @@ func (t *Tracker) SetFrameWidth(w int) {
 	for _, k := range []*KalmanCV{&t.off, &t.cand.off} {
 		k.AccelSigma, k.MeasSigma = t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s
 	}
+	t.bank.setNoise(t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s, t.cfg.HeadingAccel, t.cfg.HeadingNoiseDeg)
+	t.off, t.head = t.bank.inUse()
 }
 
 // offsetRateSigma is OffsetRateSigma at the frame's width.
@@ -297,6 +322,7 @@ func (t *Tracker) lossReason(now time.Duration) string {
 }
 
 func (t *Tracker) toLost(reason string) {
+	t.reach.reset()
 	t.state = Lost
 	t.lostReason = reason
 	t.runActive = false
@@ -322,6 +348,9 @@ func (t *Tracker) usable(m Measurement) (bool, string) {
 	if m.Confidence < threshold {
 		return false, fmt.Sprintf("confidence %.2f below %.2f", m.Confidence, threshold)
 	}
+	if m.HasReach && m.ReachPx < 0 {
+		return false, fmt.Sprintf("line ends %.0f rows short of the reference row", -m.ReachPx)
+	}
 	return true, ""
 }
 
@@ -329,6 +358,10 @@ func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 	t.predictTo(now)
 	ok, why := t.usable(m)
 	if !ok {
+		if reason, ended := t.lineEnded(now, m); ended {
+			t.toLost(reason)
+			return
+		}
 		t.state = Coasting
 		t.consec = 0
 		t.note = why
@@ -372,7 +405,11 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		c.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
 	}
 	if c.n >= t.cfg.StepConfirmFrames {
-		t.off, t.head, t.filterT = c.off, c.head, now
+		t.reach.reset()
+		t.reach.add(now, m)
+		t.bank.adopt(c.off, c.head)
+		t.off, t.head = t.bank.inUse()
+		t.filterT, t.updateT = now, now
 		c.active = false
 		t.lastGated = false
 		t.state = Holding
@@ -404,8 +441,7 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 		t.startRun(now, m)
 		return
 	}
-	t.off.Update(m.OffsetPx)
-	t.head.Update(m.HeadingDeg)
+	t.updateBank(now, m)
 	t.runLast = now
 	t.lastTrusted = now
 	t.conf = m.Confidence
@@ -419,9 +455,9 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 // does not count as trusted (it agrees with nothing yet), unless
 // ReacquireFor is 0.
 func (t *Tracker) startRun(now time.Duration, m Measurement) {
-	t.off.Init(m.OffsetPx, t.offsetRateSigma())
-	t.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
-	t.filterT = now
+	t.bank.init(m, t.offsetRateSigma(), t.cfg.HeadingRateSigma)
+	t.off, t.head = t.bank.inUse()
+	t.filterT, t.updateT = now, now
 	t.runActive, t.runStart, t.runLast = true, now, now
 	if t.state == Lost {
 		t.state = Regaining
@@ -432,6 +468,8 @@ func (t *Tracker) startRun(now time.Duration, m Measurement) {
 }
 
 func (t *Tracker) lock(now time.Duration, m Measurement) {
+	t.reach.reset()
+	t.reach.add(now, m)
 	t.state = Holding
 	t.consec = holdAfter
 	t.runActive = false
@@ -443,8 +481,8 @@ func (t *Tracker) lock(now time.Duration, m Measurement) {
 }
 
 func (t *Tracker) accept(now time.Duration, m Measurement) {
-	t.off.Update(m.OffsetPx)
-	t.head.Update(m.HeadingDeg)
+	t.reach.add(now, m)
+	t.updateBank(now, m)
 	t.consec++
 	if t.state == Holding || t.consec >= holdAfter {
 		t.state = Holding
@@ -459,9 +497,17 @@ func (t *Tracker) accept(now time.Duration, m Measurement) {
 
 func (t *Tracker) predictTo(now time.Duration) {
 	dt := (now - t.filterT).Seconds()
-	t.off.Predict(dt)
-	t.head.Predict(dt)
+	t.bank.predict(dt)
+	t.off, t.head = t.bank.inUse()
 	t.filterT = now
+}
+
+// updateBank folds an accepted measurement into every motion model and
+// takes the best one's state as the estimate.
+func (t *Tracker) updateBank(now time.Duration, m Measurement) {
+	t.bank.update(m, (now - t.updateT).Seconds())
+	t.updateT = now
+	t.off, t.head = t.bank.inUse()
 }
 
 func (t *Tracker) estimate(now time.Duration) Estimate {

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -250,9 +251,11 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 			}
 			hint := tk.hint(r)
 			r.Det = cfg.Detector.Detect(*it.mat, hint)
-			r.Est = tk.update(r, guidance.Measurement{
+			m := guidance.Measurement{
 				Valid: r.Det.Found, OffsetPx: r.Det.OffsetPx, HeadingDeg: r.Det.HeadingDeg, Confidence: r.Det.Confidence,
-			})
+			}
+			m.ReachPx, m.HasReach = reach(r.Det)
+			r.Est = tk.update(r, m)
 			r.Cue = guidance.Decide(r.Est)
 			r.Predicted = pred.next(r.Det, r.Est)
 			if cfg.Floor != nil && r.Det.Found {
@@ -419,4 +422,18 @@ func (c *trackerClock) tick(period time.Duration) (Result, bool) {
 	r.Cue = guidance.Decide(r.Est)
 	r.Captured, r.Decided = time.Time{}, now
 	return r, true
+}
+
+// reach is how far the detected line extends beyond the reference row
+// toward the far end (image rows, negative when it ends short of the row),
+// for guidance.Measurement.ReachPx. ok is false without a line.
+func reach(d vision.Detection) (rows float64, ok bool) {
+	if !d.Found || len(d.Points) == 0 {
+		return 0, false
+	}
+	top := d.Points[0].Y
+	for _, p := range d.Points[1:] {
+		top = math.Min(top, p.Y)
+	}
+	return d.RefRow - top, true
 }

@@ -1,0 +1,129 @@
+package guidance_test
+
+import (
+	"math"
+	"testing"
+	"time"
+
+	"github.com/hewline/hewline/guidance"
+	"github.com/hewline/hewline/guidance/guidancetest"
+)
+
+// hardWeave is a cart weaving hard at 2 m/s over a 3 m wavelength, seen by
+// a camera whose stripe image swings ±160 px at 640 px: 1.5 s per cycle,
+// peak image acceleration 160·(2π/1.5)² ≈ 2800 px/s², fourteen times the
+// default OffsetAccel. (The built-in rolling-shutter scene's motion.)
+func hardWeave(seed uint64) guidancetest.Scene {
+	w := 2 * math.Pi / 1.5
+	return guidancetest.Scene{
+		FPS: 30, Length: 10 * time.Second, Seed: seed,
+		Offset:  func(t time.Duration) float64 { return 160 * math.Sin(w*t.Seconds()) },
+		Heading: func(t time.Duration) float64 { return 18 * math.Cos(w*t.Seconds()) },
+		NoisePx: 1.5, NoiseDeg: 1,
+	}
+}
+
+// singleModelGated runs the scene through one constant-velocity filter pair
+// with the default settings and the tracker's 99 % gate (accepting only
+// what passes, as a tracker without the model bank would) and returns the
+// fraction of frames it refuses. The control for TestHardWeaveIsFollowed.
+func singleModelGated(s guidancetest.Scene) float64 {
+	cfg := guidance.DefaultConfig()
+	gate := guidance.ChiSquareQuantile(cfg.GateProbability, 2)
+	off := guidance.NewKalmanCV(cfg.OffsetAccel, cfg.OffsetNoisePx)
+	head := guidance.NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg)
+	frames := s.Frames()
+	off.Init(frames[0].M.OffsetPx, cfg.OffsetRateSigma)
+	head.Init(frames[0].M.HeadingDeg, cfg.HeadingRateSigma)
+	last, gated := frames[0].T, 0
+	for _, f := range frames[1:] {
+		dt := (f.T - last).Seconds()
+		last = f.T
+		off.Predict(dt)
+		head.Predict(dt)
+		no, so := off.Innovation(f.M.OffsetPx)
+		nh, sh := head.Innovation(f.M.HeadingDeg)
+		if no*no/so+nh*nh/sh > gate {
+			gated++
+			continue
+		}
+		off.Update(f.M.OffsetPx)
+		head.Update(f.M.HeadingDeg)
+	}
+	return float64(gated) / float64(len(frames)-1)
+}
+
+func TestHardWeaveIsFollowed(t *testing.T) {
+	s := hardWeave(3)
+	// The control: one filter tuned for smooth running refuses a large
+	// share of these (correct) measurements at the reversals.
+	if r := singleModelGated(s); r < 0.10 {
+		t.Fatalf("control: a single default filter refuses only %.1f %% of the hard weave; the scene no longer tests manoeuvres", 100*r)
+	} else {
+		t.Logf("control: single default filter refuses %.1f %%", 100*r)
+	}
+	tr := newTracker(t, guidance.DefaultConfig())
+	gated, n, worst := 0, 0, 0.0
+	for _, f := range s.Frames() {
+		e := tr.Update(f.T, f.M)
+		if f.T < time.Second { // acquisition and the models settling
+			continue
+		}
+		n++
+		if e.Gated {
+			gated++
+		}
+		if !e.Tracking {
+			t.Fatalf("t=%v: not tracking (%s)", f.T, e.State)
+		}
+		worst = math.Max(worst, math.Abs(e.OffsetPx-s.Offset(f.T)))
+	}
+	rate := float64(gated) / float64(n)
+	if rate > 0.02 {
+		t.Errorf("tracker refused %.1f %% of the hard weave's measurements (%d of %d), want ≤ 2 %%", 100*rate, gated, n)
+	}
+	// 1.5 px measurement noise; a filter following the swing stays within
+	// a few pixels (a lagging one is tens of pixels behind at reversals).
+	if worst > 10 {
+		t.Errorf("estimate up to %.1f px from the true offset, want ≤ 10", worst)
+	}
+	t.Logf("refused %.1f %%, worst error %.1f px", 100*rate, worst)
+}
+
+func TestGateTightensAgainAfterAManoeuvre(t *testing.T) {
+	// After hard weaving, a smooth run must bring back the narrow gate of
+	// the smooth-running model, so that a tyre mark beside the stripe is
+	// refused again.
+	calm := func(t time.Duration) float64 { return 40 }
+	ref := newTracker(t, guidance.DefaultConfig())
+	now := lockOn(t, ref, 40, 0, 3*time.Second)
+	_, _, sigCalm, _, _ := ref.Predict(now)
+
+	tr := newTracker(t, guidance.DefaultConfig())
+	weave := hardWeave(5)
+	var last time.Duration
+	var sigWeave float64
+	for _, f := range weave.Frames() {
+		tr.Update(f.T, f.M)
+		last = f.T
+	}
+	_, _, sigWeave, _, _ = tr.Predict(last + 33*ms)
+	smooth := guidancetest.Scene{FPS: 30, Length: 3 * time.Second, Seed: 7, Offset: calm, NoisePx: 1.5, NoiseDeg: 1}
+	for _, f := range smooth.Frames() {
+		now = last + 33*ms + f.T
+		tr.Update(now, f.M)
+	}
+	now += 33 * ms
+	_, _, sigAfter, _, _ := tr.Predict(now)
+	if sigWeave < 1.5*sigCalm {
+		t.Errorf("during the weave the predicted spread is %.2f px, calm %.2f px: want it wider", sigWeave, sigCalm)
+	}
+	if sigAfter > 1.1*sigCalm {
+		t.Errorf("after 3 s of smooth running the predicted spread is %.2f px, want ≤ 1.1 × %.2f (calm)", sigAfter, sigCalm)
+	}
+	// And a 10-sigma jump (a mark beside the stripe) is refused.
+	if e := tr.Update(now, good(40+10*sigCalm, 0)); !e.Gated {
+		t.Errorf("jump of %.1f px after the manoeuvre accepted: %+v", 10*sigCalm, e)
+	}
+	t.Logf("predicted spread: calm %.2f px, weaving %.2f px, after %.2f px", sigCalm, sigWeave, sigAfter)
+}

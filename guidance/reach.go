@@ -1,0 +1,108 @@
+package guidance
+
+import (
+	"fmt"
+	"time"
+)
+
+// Seeing the line end.
+//
+// Coasting exists for frames that cannot be read (a glare spot, a blurred
+// frame, a passing shadow): the line is still there, the filter's
+// prediction stands in for it for up to FailSafeAfter. When the line
+// itself ends, or a gap in it comes under the camera, coasting only
+// steers on a line that is no longer there, and the alarm comes
+// FailSafeAfter late.
+//
+// A solid line that ends shows it before it goes: frame after frame the
+// detector finds it shorter, its far end running down the image toward
+// the camera at the vehicle's speed. (A dashed line does not: the fitted
+// line runs on through the gaps to the next dashes, so its far end stays
+// far.) The guidance offset is taken at the reference row; once the line
+// ends below that row the offset is an extrapolation. The tracker
+// therefore keeps the reach (Measurement.ReachPx: rows from the reference
+// row to the line's far end) of its latest accepted measurements, and
+// goes Lost at once, with the reason named, when
+//   - a measurement says the line ends short of the reference row after
+//     the reach had been shrinking, or
+//   - no measurement comes, and the shrinking reach, extrapolated to now,
+//     has passed the reference row.
+//
+// "Shrinking" needs reachMinSamples accepted measurements within
+// reachWindow, each no farther than the one before (within reachSlackPx
+// rows, for the detector's jitter) and the last clearly shorter than the
+// first; a single short detection is only refused (see usable), never an
+// alarm on its own.
+const (
+	reachWindow     = 300 * time.Millisecond
+	reachMinSamples = 3
+	reachSlackPx    = 2.0
+)
+
+type reachSample struct {
+	t     time.Duration
+	reach float64
+}
+
+// reachTrack holds the reach of the latest accepted measurements, oldest
+// first (at most reachKeep).
+type reachTrack struct {
+	s []reachSample
+}
+
+const reachKeep = 8
+
+func (r *reachTrack) reset() { r.s = r.s[:0] }
+
+func (r *reachTrack) add(now time.Duration, m Measurement) {
+	if !m.HasReach || !finite(m.ReachPx) {
+		r.reset() // a detector that does not report reach: no trend
+		return
+	}
+	if len(r.s) == reachKeep {
+		copy(r.s, r.s[1:])
+		r.s = r.s[:reachKeep-1]
+	}
+	r.s = append(r.s, reachSample{now, m.ReachPx})
+}
+
+// shrinking returns the rate (rows per second, negative) at which the
+// reach has been falling over the recent samples, and whether it has
+// been falling steadily (see the constants' comment).
+func (r *reachTrack) shrinking(now time.Duration) (rate float64, last reachSample, ok bool) {
+	i0 := 0
+	for i0 < len(r.s) && now-r.s[i0].t > reachWindow {
+		i0++
+	}
+	recent := r.s[i0:]
+	if len(recent) < reachMinSamples {
+		return 0, reachSample{}, false
+	}
+	for i := 1; i < len(recent); i++ {
+		if recent[i].reach > recent[i-1].reach+reachSlackPx {
+			return 0, reachSample{}, false
+		}
+	}
+	first, last := recent[0], recent[len(recent)-1]
+	dt := (last.t - first.t).Seconds()
+	if dt <= 0 || first.reach-last.reach <= reachSlackPx*float64(len(recent)-1) {
+		return 0, reachSample{}, false
+	}
+	return (last.reach - first.reach) / dt, last, true
+}
+
+// lineEnded says whether, with m unusable at now, the line is seen to
+// have ended, and why.
+func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
+	rate, last, ok := t.reach.shrinking(now)
+	if !ok {
+		return "", false
+	}
+	if m.Valid && m.HasReach && m.ReachPx < 0 {
+		return fmt.Sprintf("line ends %.0f rows short of the reference row (end of the line or a gap)", -m.ReachPx), true
+	}
+	if pred := last.reach + rate*(now-last.t).Seconds(); pred < 0 {
+		return fmt.Sprintf("line lost with its far end running out at %.0f rows/s: end of the line or a gap", -rate), true
+	}
+	return "", false
+}

@@ -1,0 +1,128 @@
+package guidance_test
+
+import (
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/hewline/hewline/guidance"
+)
+
+// reaching is a good measurement whose line reaches rows past the
+// reference row.
+func reaching(rows float64) guidance.Measurement {
+	m := good(10, 0)
+	m.ReachPx, m.HasReach = rows, true
+	return m
+}
+
+// lockReaching holds a line reaching 200 rows for 1 s and returns the next
+// frame's time.
+func lockReaching(t *testing.T, tr *guidance.Tracker) time.Duration {
+	t.Helper()
+	var now time.Duration
+	var e guidance.Estimate
+	for ; now < time.Second; now += 33 * ms {
+		e = tr.Update(now, reaching(200))
+	}
+	if e.State != guidance.Holding {
+		t.Fatalf("after 1 s of a steady line: %+v, want holding", e)
+	}
+	return now
+}
+
+func TestSeeingTheLineEnd(t *testing.T) {
+	// The end of a solid line comes toward the camera: its far end runs
+	// down the image 18 rows per frame (the gap scene at 640×480 runs
+	// 15-19), from 200 rows past the reference row.
+	const step = 18.0
+	tests := map[string]struct {
+		after     func(i int) guidance.Measurement // frames after the line starts shrinking
+		wantLost  int                              // first frame index that must be Lost (−1: never within 12 frames)
+		wantNote  string
+		noneLostB int // no Lost before this index
+	}{
+		"the short line is seen ending before the reference row": {
+			after: func(i int) guidance.Measurement { return reaching(200 - step*float64(i+1)*1.5) },
+			// reach: 173, 146, 119, 92, 65, 38, 11, −16 (index 7)
+			wantLost: 7, noneLostB: 7, wantNote: "short of the reference row",
+		},
+		"the line vanishes and its shrinking end is extrapolated": {
+			after: func(i int) guidance.Measurement {
+				if i < 8 {
+					return reaching(200 - step*float64(i+1))
+				}
+				return guidance.Measurement{} // the detector finds nothing
+			},
+			// last reach 56 at index 7, falling 540 rows/s: 0 about 3 frames later
+			wantLost: 11, noneLostB: 10, wantNote: "far end running out",
+		},
+		"a dashed line: the fitted far end stays far while frames go missing": {
+			after: func(i int) guidance.Measurement {
+				if i%4 == 3 {
+					return guidance.Measurement{}
+				}
+				return reaching(190 + float64(i%3)*5)
+			},
+			wantLost: -1, noneLostB: 12,
+		},
+		"one short detection in a steady line is refused, not an alarm": {
+			after: func(i int) guidance.Measurement {
+				if i == 2 {
+					return reaching(-3)
+				}
+				return reaching(200)
+			},
+			wantLost: -1, noneLostB: 12,
+		},
+		"no reach reported: coasting as before": {
+			after: func(i int) guidance.Measurement {
+				if i < 8 {
+					return good(10, 0) // HasReach false
+				}
+				return guidance.Measurement{}
+			},
+			// FailSafeAfter 300 ms after the last trusted frame (index 7): index 17
+			wantLost: -1, noneLostB: 12,
+		},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			tr := newTracker(t, guidance.DefaultConfig())
+			now := lockReaching(t, tr)
+			for i := 0; i < 12; i++ {
+				e := tr.Update(now, tc.after(i))
+				now += 33 * ms
+				lost := e.State == guidance.Lost
+				if lost && i < tc.noneLostB {
+					t.Fatalf("frame %d: lost (%s), want no alarm before frame %d", i, e.Reason, tc.noneLostB)
+				}
+				if i == tc.wantLost {
+					if !lost || !e.Alarm {
+						t.Fatalf("frame %d: %+v, want lost with the alarm on", i, e)
+					}
+					if !strings.Contains(e.Reason, tc.wantNote) {
+						t.Errorf("reason %q, want it to mention %q", e.Reason, tc.wantNote)
+					}
+					return
+				}
+			}
+			if tc.wantLost >= 0 {
+				t.Fatalf("never lost within 12 frames, want lost at frame %d", tc.wantLost)
+			}
+		})
+	}
+}
+
+func TestShortLineIsNotAcquired(t *testing.T) {
+	// A line that ends below the reference row gives no offset there: it
+	// must not bring guidance back.
+	tr := newTracker(t, guidance.DefaultConfig())
+	var e guidance.Estimate
+	for now := time.Duration(0); now < time.Second; now += 33 * ms {
+		e = tr.Update(now, reaching(-10))
+	}
+	if e.Tracking {
+		t.Fatalf("tracking on a line that ends short of the reference row: %+v", e)
+	}
+}

@@ -45,7 +45,10 @@ const (
 //     weighted least squares on the inliers, rejecting candidates whose
 //     width disagrees with the fitted width profile; a dotted or dashed
 //     line is accepted with support in a fifth of its bands when that
-//     support forms at least three separate marks;
+//     support forms at least three separate marks, and run out across a
+//     gap at the vehicle that is no longer on the floor than its own gaps
+//     when two estimates of the unseen stretch agree (and the prediction,
+//     when there is one);
 //  5. choose among the channels' lines by their support summed over every
 //     channel (tape that is both lighter and coloured beats a tyre mark
 //     that is only darker), keeping only lines that reach the reference

@@ -29,7 +29,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 	for _, sel := range chans {
 		r := c.ransac(l, fr.ww, byBand, sel, slot)
 		slot++
-		if c.acceptable(r, l) && reaches(r, l, yRefW) {
+		if c.acceptable(r, l) && (c.bridges(r, l, fr, hint, yRefW) || reaches(r, l, yRefW)) {
 			if t := c.totalScore(r.centre, l, fr.ww, byBand, chans, false); bestFull == nil || t > fullTotal {
 				bestFull, fullTotal = r, t
 			}
@@ -39,7 +39,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 			gs.gatedOnly = true
 			g := c.ransac(l, fr.ww, byBand, gs, slot)
 			slot++
-			if c.acceptable(g, l) && reaches(g, l, yRefW) {
+			if c.acceptable(g, l) && (c.bridges(g, l, fr, hint, yRefW) || reaches(g, l, yRefW)) {
 				if t := c.totalScore(g.centre, l, fr.ww, byBand, chans, true); bestGated == nil || t > gatedTotal {
 					bestGated, gatedTotal = g, t
 				}
@@ -126,6 +126,83 @@ func reachWithin(r *fitResult, l bandLayout) float64 {
 		reach = math.Max(reach, 0.25*(r.yHi-r.yLo))
 	}
 	return reach
+}
+
+// bridgeFactor is the confidence factor of a line bridged to the
+// reference row (see Classical.bridges).
+const bridgeFactor = 0.75
+
+// bridges says whether line r may be run out across an unseen stretch
+// between its near end and the reference row: a dashed or dotted line
+// whose nearest mark lies beyond the reference row (a dash gap at the
+// vehicle). All of these must hold:
+//   - the line is a row of marks: at least three of them (runs of two or
+//     more bands) with gaps of their own (see dashed), so the unseen
+//     stretch is most likely one more gap of a pattern seen twice; with a
+//     prediction (hint valid) that the line must also agree with (below),
+//     two marks;
+//   - the unseen stretch, measured along the floor (see floorLen), is no
+//     longer than the longest gap seen between the line's marks: a
+//     missing stretch of the marking, or a line that resumes after one,
+//     is longer and is not bridged (the fail-safe must sound there);
+//   - two estimates of the unseen stretch agree within 1.5 % of the
+//     width at the reference row (the scoring tolerance, 10 px at 640):
+//     the straight line through the nearest marks alone (see nearLine;
+//     over at least 15 % of the ROI height, the RANSAC sample spread) and
+//     the perspective curve through every mark (see perspLine: a bend of
+//     constant curvature on the floor). Where they disagree (a bend
+//     beginning beyond the near marks, or a far dash tilting the curve),
+//     the stretch stays unseen. The line is run out along the
+//     perspective curve's tangent at the reference row, which must lie
+//     inside the region of interest;
+//   - with a prediction (hint valid), the run-out agrees with it in
+//     offset and heading at the reference row: the squared distance in
+//     units of the prediction's σ (which holds the measurement noise,
+//     see Hint) is within the χ² 2-DOF 99 % quantile 9.21, the tracker's
+//     own gate, so a bridged measurement never steps the track. The
+//     offset and heading measured are the image's, not the prior's.
+//
+// On success r is marked bridged, its line beyond yHi is that tangent,
+// and r.bridgeSpread is the spread of the two estimates and the fitted
+// curve's own tangent at the reference row, in units of the agreement
+// required (report lowers the confidence with it).
+func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint, yRefW float64) bool {
+	marks := 3
+	if hint.Valid {
+		marks = 2
+	}
+	if r == nil || !r.ok || yRefW <= r.yHi || r.marks(2) < marks || !r.dashed(l) {
+		return false
+	}
+	gap := r.longestGap(l)
+	if gap <= 0 || r.floorLen(r.yHi+float64(l.step)/2, yRefW) > gap {
+		return false
+	}
+	// Two estimates of the unseen stretch: the nearest marks' straight
+	// line, and the perspective curve through every mark.
+	x0, s0, ok := c.nearLine(r, l, 0.15*float64(l.y1-l.y0))
+	if !ok {
+		return false
+	}
+	xp, sp, ok := c.perspLine(r, l, yRefW)
+	tol := 0.015 * float64(fr.ww)
+	xn, xt := x0+s0*(yRefW-r.yHi), r.xAt(yRefW)
+	if !ok || math.Abs(sp) > maxSlope || math.Abs(xn-xp) > tol || xp < float64(l.x0) || xp > float64(l.x1) {
+		return false
+	}
+	if hint.Valid {
+		off := fr.toInX(xp) - fr.inW/2
+		head := math.Atan(-sp*fr.sy/fr.sx) * 180 / math.Pi
+		so := math.Max(hint.OffsetSigma, 0.5)
+		sh := math.Max(hint.HeadingSigma, 0.1)
+		do, dh := (off-hint.OffsetPx)/so, (head-hint.HeadingDeg)/sh
+		if do*do+dh*dh > 9.21 {
+			return false
+		}
+	}
+	r.bridged, r.nearX, r.nearSlope = true, xp-sp*(yRefW-r.yHi), sp
+	r.bridgeSpread = (math.Max(xn, math.Max(xp, xt)) - math.Min(xn, math.Min(xp, xt))) / tol
+	return true
 }
 
 // reaches says whether line r comes near enough to the reference row to
@@ -350,7 +427,7 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	if r.dashed(l) {
 		reach = math.Max(reach, 0.5*(r.yHi-r.yLo))
 	}
-	if float64(l.y1)-yBot <= reach {
+	if float64(l.y1)-yBot <= reach || r.bridged {
 		yBot = float64(l.y1)
 	}
 	yTop := math.Max(r.yLo-step/2, float64(l.y0))
@@ -392,7 +469,17 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		// Extrapolating the offset beyond the seen stretch is a guess: the
 		// factor reaches 0 a tenth of the ROI height away, or a quarter of
 		// the measured span for a long line.
-		fs = append(fs, factor{clamp01(1 - e/reachWithin(r, l)), "reference row off the measured stretch"})
+		v := clamp01(1 - e/reachWithin(r, l))
+		if r.bridged {
+			// Across a gap no longer than the line's own: bridgeFactor
+			// when the estimates of the unseen stretch (the perspective
+			// curve, the nearest marks' line, the fitted curve's
+			// tangent) land together, down to 0.375 of it as they spread
+			// over the agreement required, and below beyond.
+			s := r.bridgeSpread
+			v = math.Max(v, bridgeFactor*clamp01(1-0.5*s*s))
+		}
+		fs = append(fs, factor{v, "reference row off the measured stretch"})
 	}
 	if hint.Valid {
 		if !fromPrior {

@@ -35,6 +35,59 @@ type fitResult struct {
 	// the ROI: a line whose near part is all clipped pixels is more likely
 	// a mirrored lamp bridging to a line farther on than tape.
 	nearSat float64
+	// bridged: a dashed line seen only beyond the reference row, run out
+	// across the near gap (see Classical.bridges).
+	bridged bool
+	// nearX, nearSlope: the run-out's straight line at row yHi (x and
+	// dx/dy), used below yHi when bridged.
+	nearX, nearSlope float64
+	// bridgeSpread is how far apart the estimates of a bridged line
+	// land at the reference row, in units of the agreement required
+	// (see Classical.bridges).
+	bridgeSpread float64
+}
+
+// nearLine fits a straight line x = x0 + s·(y − yHi), by weighted least
+// squares, to the inliers of the nearest marks of r: from the near end
+// up, mark by mark, until they span at least minRows rows. A dashed
+// line's parabola is fitted across the gaps and its tangent at the near
+// end can be bent by a far dash on a curve; the near marks alone say
+// where the line goes next. ok is false when too few inliers span too
+// few rows.
+func (c *Classical) nearLine(r *fitResult, l bandLayout, minRows float64) (x0, s float64, ok bool) {
+	var sw, sy, sx, syy, sxy float64
+	n := 0
+	yTop := math.Inf(1)
+	gapped := false
+	for _, i := range r.bands {
+		if i < 0 {
+			if n > 0 {
+				gapped = true
+			}
+			continue
+		}
+		cd := &c.cands[i]
+		if gapped && r.yHi-yTop >= minRows {
+			break // a mark ended and the marks so far span enough rows
+		}
+		gapped = false
+		wt := c.weight(cd, l)
+		y := cd.y - r.yHi
+		sw += wt
+		sy += wt * y
+		sx += wt * cd.x
+		syy += wt * y * y
+		sxy += wt * y * cd.x
+		yTop = math.Min(yTop, cd.y)
+		n++
+	}
+	det := sw*syy - sy*sy
+	if n < 3 || r.yHi-yTop < minRows || det <= 1e-9*sw*sw {
+		return 0, 0, false
+	}
+	s = (sw*sxy - sy*sx) / det
+	x0 = (sx - s*sy) / sw
+	return x0, s, true
 }
 
 // xAt is the centreline at row y: the fitted curve over the measured
@@ -43,6 +96,8 @@ type fitResult struct {
 // across a gap between dashes).
 func (r *fitResult) xAt(y float64) float64 {
 	switch {
+	case y > r.yHi && r.bridged:
+		return r.nearX + r.nearSlope*(y-r.yHi)
 	case y > r.yHi:
 		return r.centre.x(r.yHi) + r.centre.slope(r.yHi)*(y-r.yHi)
 	case y < r.yLo:
@@ -70,6 +125,89 @@ func (r *fitResult) dashed(l bandLayout) bool {
 	return float64(longest*l.step) >= 0.05*float64(l.y1-l.y0)
 }
 
+// perspLine fits x = A + B·u + C/u, u = y − yh, by weighted least
+// squares to r's inliers, with the horizon row yh where r's width profile
+// runs out: on a flat floor a path of constant curvature projects
+// exactly to that curve (see TestPerspLine). It returns x and dx/dy
+// at row y; ok is false without a horizon above the inliers.
+func (c *Classical) perspLine(r *fitResult, l bandLayout, y float64) (x, slope float64, ok bool) {
+	wc := r.width
+	if wc.b <= 0 {
+		return 0, 0, false
+	}
+	yh := wc.y0 - wc.scale*wc.a/wc.b
+	if yh >= r.yLo-float64(l.step) {
+		return 0, 0, false
+	}
+	var A [3][3]float64
+	var B [3]float64
+	n := 0
+	for _, i := range r.bands {
+		if i < 0 {
+			continue
+		}
+		cd := &c.cands[i]
+		u := cd.y - yh
+		v := [3]float64{1, u / 100, 100 / u}
+		wt := c.weight(cd, l)
+		for a := 0; a < 3; a++ {
+			for b := 0; b < 3; b++ {
+				A[a][b] += wt * v[a] * v[b]
+			}
+			B[a] += wt * v[a] * cd.x
+		}
+		n++
+	}
+	if n < 6 {
+		return 0, 0, false
+	}
+	sol, ok := solve3(A, B)
+	if !ok {
+		return 0, 0, false
+	}
+	u := y - yh
+	return sol[0] + sol[1]*u/100 + sol[2]*100/u, sol[1]/100 - sol[2]*100/(u*u), true
+}
+
+// longestGap is the longest unsupported stretch between two supporting
+// bands of r, as a floor length (see floorLen).
+func (r *fitResult) longestGap(l bandLayout) float64 {
+	g, last := 0.0, -1
+	for k, i := range r.bands {
+		if i < 0 {
+			continue
+		}
+		if last >= 0 && k-last > 1 {
+			// Unsupported rows: from band k's near edge to band last's far edge.
+			g = math.Max(g, r.floorLen(float64(l.y1-k*l.step), float64(l.y1-(last+1)*l.step)))
+		}
+		last = k
+	}
+	return g
+}
+
+// floorLen is the length along the floor between rows yFar < yNear, in
+// arbitrary units shared by every stretch of the same line: on a flat
+// floor seen in perspective a row's image width w of the stripe is
+// proportional to the row's distance below the horizon and the distance
+// along the floor to the inverse of it, so a row spans a floor length
+// proportional to 1/w² (and a constant length without perspective). The
+// fitted width profile gives w; widths under half a pixel count as half
+// a pixel.
+func (r *fitResult) floorLen(yFar, yNear float64) float64 {
+	if yNear <= yFar {
+		return 0
+	}
+	const steps = 16
+	h := (yNear - yFar) / steps
+	s := 0.0
+	for i := 0; i < steps; i++ {
+		w := math.Max(r.width.x(yFar+(float64(i)+0.5)*h), 0.5)
+		s += h / (w * w)
+	}
+	return s
+}
+
 // marks counts the stretches of at least minLen consecutive supporting
 // bands along the line (a dash or a dot each, on a marked line).
 func (r *fitResult) marks(minLen int) int {
@@ -89,6 +227,9 @@ func (r *fitResult) marks(minLen int) int {
 
 // slopeAt is dx/dy of xAt at row y.
 func (r *fitResult) slopeAt(y float64) float64 {
+	if y > r.yHi && r.bridged {
+		return r.nearSlope
+	}
 	return r.centre.slope(math.Min(math.Max(y, r.yLo), r.yHi))
 }
 

@@ -108,3 +108,17 @@ func (b *modelBank) update(m Measurement, dt float64) {
 func (b *modelBank) inUse() (off, head KalmanCV) {
 	return b.m[b.sel].off, b.m[b.sel].head
 }
+
+// gateNIS is the innovation test statistic of m for a locked track. While
+// Holding it uses the model in use, so a manoeuvre that the measurements
+// have shown widens the gate. While Coasting (the previous frame brought
+// nothing usable) it uses the smooth-running model: the wide prediction
+// of a high-noise model after several lost frames would let almost any
+// line back in, and a line that really moved is taken up by the step
+// candidate (StepConfirmFrames agreeing measurements) instead.
+func (t *Tracker) gateNIS(m Measurement) float64 {
+	if t.state == Coasting {
+		return nis(&t.bank.m[0].off, &t.bank.m[0].head, m)
+	}
+	return nis(&t.off, &t.head, m)
+}

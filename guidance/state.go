@@ -5,7 +5,7 @@ import "fmt"
 // State is where the tracker stands. Only Holding and Coasting are trusted
 // for guidance; Lost and Regaining sound the fail-safe alarm.
 //
-//	Seeking   ──line seen continuously for ReacquireFor──▶ Holding
+//	Seeking   ──line seen steadily for ReacquireFor──▶ Holding (steadily: in 4 frames of 5, never 2 missing in a row)
 //	Seeking   ──no trusted line for FailSafeAfter since start──▶ Lost
 //	Seeking   ──no lock within ReacquireFor+FailSafeAfter of the start──▶ Lost
 //	Holding   ──frame without a usable measurement──▶ Coasting
@@ -14,9 +14,9 @@ import "fmt"
 //	Coasting  ──the line seen ending short of the reference row──▶ Lost (see Tracker, "Seeing the line end")
 //	any       ──Fault, or time going backwards──▶ Lost
 //	Lost      ──trusted measurement──▶ Regaining
-//	Regaining ──unusable frame──▶ Regaining, count restarted
+//	Regaining ──two unusable frames in a row──▶ Regaining, count restarted
 //	Regaining ──line not seen for MaxFrameGap──▶ Lost
-//	Regaining ──line seen continuously for ReacquireFor──▶ Holding
+//	Regaining ──line seen steadily for ReacquireFor──▶ Holding
 type State int
 
 const (

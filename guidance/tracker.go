@@ -113,6 +113,9 @@ type Tracker struct {
 	runActive bool
 	runStart  time.Duration
 	runLast   time.Duration
+	runFrames int // frames since runStart, usable or not
+	runUsed   int // of them, measurements taken into the run
+	runMisses int // unusable frames in a row at the run's end
 
 	// Step candidate while locked: consecutive gate-rejected
 	// measurements that agree with each other.
@@ -121,6 +124,18 @@ type Tracker struct {
 	measured  bool // this call's measurement was accepted
 	consec    int  // consecutive accepted measurements while locked
 }
+
+// An acquisition run (Seeking, Regaining) survives a single unusable frame
+// (a blurred or unsure one) between measurements that agree, but not
+// acquireMaxMisses+1 in a row, and locks only when at least acquireMinShare
+// of its frames brought a measurement that agreed with the run. A line
+// that is read in most frames but blinks out in some (smeared dashes, a
+// flickering lamp) is then regained in ReacquireFor; before, every such
+// frame started the count again.
+const (
+	acquireMaxMisses = 1
+	acquireMinShare  = 0.8
+)
 
 // holdAfter is how many consecutive accepted measurements take a Coasting
 // track back to Holding: a little hysteresis so a measurement stream that
@@ -368,7 +383,7 @@ func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 		t.cand.active = false // a step must show in consecutive frames
 		return
 	}
-	d2 := nis(&t.off, &t.head, m)
+	d2 := t.gateNIS(m)
 	if d2 <= t.gate {
 		t.accept(now, m)
 		t.cand.active = false
@@ -425,7 +440,13 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 	ok, why := t.usable(m)
 	if !ok {
 		t.note = why
-		t.runActive = false
+		if t.runActive {
+			t.runFrames++
+			t.runMisses++
+			if t.runMisses > acquireMaxMisses {
+				t.runActive = false
+			}
+		}
 		return
 	}
 	if !t.runActive || !t.off.Ready {
@@ -443,10 +464,13 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 	}
 	t.updateBank(now, m)
 	t.runLast = now
+	t.runFrames++
+	t.runUsed++
+	t.runMisses = 0
 	t.lastTrusted = now
 	t.conf = m.Confidence
 	t.note = ""
-	if now-t.runStart >= t.cfg.ReacquireFor {
+	if now-t.runStart >= t.cfg.ReacquireFor && float64(t.runUsed) >= acquireMinShare*float64(t.runFrames) {
 		t.lock(now, m)
 	}
 }
@@ -459,6 +483,7 @@ func (t *Tracker) startRun(now time.Duration, m Measurement) {
 	t.off, t.head = t.bank.inUse()
 	t.filterT, t.updateT = now, now
 	t.runActive, t.runStart, t.runLast = true, now, now
+	t.runFrames, t.runUsed, t.runMisses = 1, 1, 0
 	if t.state == Lost {
 		t.state = Regaining
 	}

@@ -356,21 +356,50 @@ func TestFaultRaisesAlarmAtOnce(t *testing.T) {
 	}
 }
 
-func TestReacquireNeedsContinuousLine(t *testing.T) {
-	// After a loss, a line seen in short bursts (3 frames on, 1 off) never
-	// turns the alarm off: ReacquireFor must be continuous.
-	tr := newTracker(t, guidance.DefaultConfig())
-	now := lockOn(t, tr, 0, 0, time.Second)
-	tr.Fault(now, "test")
-	for i := 0; i < 90; i++ {
-		now += 33 * ms
-		m := good(0, 0)
-		if i%4 == 3 {
-			m = guidance.Measurement{}
-		}
-		if e := tr.Update(now, m); !e.Alarm || e.Tracking {
-			t.Fatalf("frame %d: %+v, want alarm on", i, e)
-		}
+func TestReacquireNeedsASteadyLine(t *testing.T) {
+	// After a loss the line must be seen steadily for ReacquireFor: in at
+	// least four frames of five, never missing twice in a row. Bursts
+	// of two frames on, one off never turn the alarm off; two frames off
+	// in a row start the count again.
+	tests := map[string]struct {
+		missing func(i int) bool
+		regain  bool
+	}{
+		"two on, one off":                 {func(i int) bool { return i%3 == 2 }, false},
+		"two off in a row every 6 frames": {func(i int) bool { return i%6 >= 4 }, false},
+		// A line read in most frames but blinking out in some (smeared
+		// dashes, a flickering lamp).
+		"one frame in seven missing": {func(i int) bool { return i%7 == 6 }, true},
+		"steady":                     {func(i int) bool { return false }, true},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			tr := newTracker(t, guidance.DefaultConfig())
+			now := lockOn(t, tr, 0, 0, time.Second)
+			tr.Fault(now, "test")
+			regained := -1
+			for i := 0; i < 90 && regained < 0; i++ {
+				now += 33 * ms
+				m := good(0, 0)
+				if tc.missing(i) {
+					m = guidance.Measurement{}
+				}
+				e := tr.Update(now, m)
+				if e.Tracking {
+					regained = i
+				} else if !e.Alarm {
+					t.Fatalf("frame %d: %+v, want the alarm on until regained", i, e)
+				}
+			}
+			switch {
+			case !tc.regain && regained >= 0:
+				t.Fatalf("regained at frame %d, want the alarm on throughout", regained)
+			case tc.regain && regained < 0:
+				t.Fatalf("never regained in 90 frames")
+			case tc.regain && regained > 8: // ReacquireFor 200 ms: frame 6, one blink later 7
+				t.Errorf("regained at frame %d, want by frame 8", regained)
+			}
+		})
 	}
 }
 

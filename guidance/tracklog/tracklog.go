@@ -54,11 +54,15 @@ type Record struct {
 	HeadingDeg float64      `json:"heading_deg"`
 	Method     string       `json:"method"`
 	// Optional fields.
-	WidthPx         float64  `json:"width_px,omitempty"`
-	MeasOffsetPx    *float64 `json:"meas_offset_px,omitempty"`
-	MeasConfidence  float64  `json:"meas_confidence"`
-	Gated           bool     `json:"gated,omitempty"`
-	Reason          string   `json:"reason,omitempty"`
+	WidthPx        float64  `json:"width_px,omitempty"`
+	MeasOffsetPx   *float64 `json:"meas_offset_px,omitempty"`
+	MeasConfidence float64  `json:"meas_confidence"`
+	Gated          bool     `json:"gated,omitempty"`
+	Reason         string   `json:"reason,omitempty"`
+	// MeasReason is the detector's own word on a line it found but rates
+	// below 0.5 (the weakest of its confidence factors: "short line",
+	// "saturated (glare or reflection)", ...).
+	MeasReason      string   `json:"meas_reason,omitempty"`
 	OffsetMM        *float64 `json:"offset_mm,omitempty"`
 	HeadingFloorDeg *float64 `json:"heading_floor_deg,omitempty"`
 	WidthMM         *float64 `json:"width_mm,omitempty"`
@@ -178,6 +182,9 @@ func (w *Writer) Write(r *Record) error {
 	}
 	if r.Reason != "" {
 		e = e.Str("reason", r.Reason)
+	}
+	if r.MeasReason != "" {
+		e = e.Str("meas_reason", r.MeasReason)
 	}
 	if len(r.PredictedPoints) > 0 {
 		w.pred = appendPoints(w.pred[:0], r.PredictedPoints)

@@ -67,6 +67,7 @@ func (s *LogSink) Frame(r *Result, _ gocv.Mat) error {
 	} else {
 		m := r.Det.OffsetPx
 		rec.MeasOffsetPx = &m
+		rec.MeasReason = r.Det.Reason
 		if ln := r.Det.Lane; ln != nil {
 			if len(ln.Left) > 0 {
 				s.left = points(s.left, ln.Left)

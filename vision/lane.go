@@ -151,7 +151,6 @@ type Lane struct {
 	prevOK     bool
 	fits       [3]fitResult
 	sides      [2]fitResult
-	cpts       [][3]float64 // scratch for centre
 }
 
 // sideAt is a line's offset and heading at the reference row.
@@ -758,76 +757,17 @@ func bandOf(l bandLayout, y float64) int {
 	return min(max(int((float64(l.y1)-y)/float64(l.step)), 0), l.n-1)
 }
 
-// centre fits the lane's centre: with one boundary on a known floor, the
-// centre beside it on the floor (onFloor); otherwise, or where that is
-// no plausible quadratic, band by band from the boundaries' image fits
-// (bandCentre). The result carries the boundaries' summaries, so that the
-// stripe detector's confidence factors apply.
+// centre fits the lane's centre: midway between the boundaries on the
+// bands both cover, half the learned width from the one boundary where
+// only one does (at half weight). The result carries the boundaries'
+// summaries, so that the stripe detector's confidence factors apply.
 func (ln *Lane) centre(l bandLayout, a, b *fitResult, yRefW float64) (fitResult, bool) {
-	fl, fw, fok := ln.floor(yRefW)
-	var r fitResult
-	ok := false
-	if fok && (a == nil) != (b == nil) {
-		// One boundary on a known floor: the centre beside it on the
-		// floor (onFloor); where that is no plausible quadratic, the
-		// bands as below.
-		p, d := a, fw/2
-		if p == nil {
-			p, d = b, -d
-		}
-		ln.cpts = ln.onFloor(fl, l, p, d, ln.cpts[:0])
-		// points in order along the lane: where the whole is no
-		// plausible quadratic (the lane turns too far in view), the
-		// farthest are left out until it is
-		pts := ln.cpts
-		r, ok = fitCentre(l, pts)
-		for i := 0; i < 4 && !ok && len(pts) >= 10; i++ {
-			pts = pts[:len(pts)*5/6]
-			r, ok = fitCentre(l, pts)
-		}
-	}
-	if !ok {
-		r, ok = ln.bandCentre(l, a, b, fl, fw, fok)
-	}
-	if !ok {
-		return r, false
-	}
+	var A [3][3]float64
+	var B [3]float64
 	y0, sc := float64(l.y1), float64(l.y1-l.y0)
-	// Summaries: the support and quality of the boundaries used.
-	r.meanSNR, r.rms = math.Inf(1), 0
-	var parts []*fitResult
-	for _, p := range []*fitResult{a, b} {
-		if p != nil {
-			parts = append(parts, p)
-		}
-	}
-	r.width = curve{y0: y0, scale: sc}
-	share := 0.0
-	for _, p := range parts {
-		r.score += p.score
-		r.rms = math.Max(r.rms, p.rms)
-		r.meanSNR = math.Min(r.meanSNR, p.meanSNR)
-		r.satShare = math.Max(r.satShare, p.satShare)
-		k := 1 / float64(len(parts))
-		r.width.a += k * p.width.a
-		r.width.b += k * p.width.b
-		r.width.c += k * p.width.c
-		// the boundary's support along its own stretch
-		share += k * float64(p.inliers) / ((p.yHi-p.yLo)/float64(l.step) + 1)
-	}
-	// The stripe detector's "gaps along the line" factor counts inliers
-	// over the stretch: carry the boundaries' own share of support.
-	r.inliers = int(math.Round(share * ((r.yHi-r.yLo)/float64(l.step) + 1)))
-	return r, true
-}
-
-// bandCentre is the centre from the boundaries' image fits, band by
-// band: midway between them where both are, half the lane's width from
-// the one there (on the floor when fok, at half weight) otherwise. With
-// one boundary on the floor, the centre is run out to that boundary's far
-// end (the lane runs on there).
-func (ln *Lane) bandCentre(l bandLayout, a, b *fitResult, fl laneFloor, fw float64, fok bool) (fitResult, bool) {
-	pts := ln.cpts[:0]
+	r := fitResult{ok: true, yLo: math.Inf(1), yHi: math.Inf(-1)}
+	fl, fw, fok := ln.floor(yRefW)
+	n := 0
 	for k := 0; k < l.n; k++ {
 		y := l.centre(k)
 		inA, inB := covers(a, l, y), covers(b, l, y)
@@ -853,37 +793,6 @@ func (ln *Lane) bandCentre(l bandLayout, a, b *fitResult, fl laneFloor, fw float
 		default:
 			continue
 		}
-		pts = append(pts, [3]float64{x, y, wt})
-	}
-	ln.cpts = pts
-	r, ok := fitCentre(l, pts)
-	if !ok || !fok || (a == nil) == (b == nil) {
-		return r, ok
-	}
-	p := a
-	if p == nil {
-		p = b
-	}
-	if p.yLo < r.yLo && r.yHi-r.yLo > 0.25*float64(l.y1-l.y0) {
-		r.yLo = math.Max(p.yLo, r.yLo-0.5*(r.yHi-r.yLo))
-		over := l
-		over.y0, over.y1 = int(math.Floor(r.yLo)), int(math.Ceil(r.yHi))
-		ok = plausible(r.centre, over)
-	}
-	return r, ok
-}
-
-// fitCentre fits the centre's quadratic to the points (working x, y and
-// weight), by weighted least squares; r.inliers is the number of points.
-// ok false with fewer than five or when the quadratic is not plausible
-// over the rows it was fitted on (see plausible).
-func fitCentre(l bandLayout, pts [][3]float64) (r fitResult, ok bool) {
-	var A [3][3]float64
-	var B [3]float64
-	y0, sc := float64(l.y1), float64(l.y1-l.y0)
-	r = fitResult{ok: true, yLo: math.Inf(1), yHi: math.Inf(-1)}
-	for _, p := range pts {
-		x, y, wt := p[0], p[1], p[2]
 		t := (y - y0) / sc
 		v := [3]float64{1, t, t * t}
 		for i := 0; i < 3; i++ {
@@ -893,8 +802,9 @@ func fitCentre(l bandLayout, pts [][3]float64) (r fitResult, ok bool) {
 			B[i] += wt * v[i] * x
 		}
 		r.yLo, r.yHi = math.Min(r.yLo, y), math.Max(r.yHi, y)
+		n++
 	}
-	if len(pts) < 5 {
+	if n < 5 {
 		return r, false
 	}
 	A[2][2] += 1e-6 * A[0][0]
@@ -903,13 +813,54 @@ func fitCentre(l bandLayout, pts [][3]float64) (r fitResult, ok bool) {
 		return r, false
 	}
 	r.centre = curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
-	r.inliers = len(pts)
+	// Where the centre comes from one boundary, the lane's centre beside
+	// that boundary's far end lies nearer in the image when the lane bends
+	// towards the other side: the centre is run out to the boundary's far
+	// end, as the lane runs on there.
+	if fok && (a == nil || b == nil) {
+		p := a
+		if p == nil {
+			p = b
+		}
+		if p.yLo < r.yLo && r.yHi-r.yLo > 0.25*float64(l.y1-l.y0) {
+			r.yLo = math.Max(p.yLo, r.yLo-0.5*(r.yHi-r.yLo))
+		}
+	}
 	// Plausible over the stretch it was fitted on: where the boundaries
 	// were fitted over the nearer rows only (a bend), a quadratic run out
 	// to the far end of the ROI may lean or bend past the limits.
 	over := l
 	over.y0, over.y1 = int(math.Floor(r.yLo)), int(math.Ceil(r.yHi))
-	return r, plausible(r.centre, over)
+	if !plausible(r.centre, over) {
+		return r, false
+	}
+	// Summaries: the support and quality of the boundaries used.
+	r.inliers = n
+	r.meanSNR, r.rms = math.Inf(1), 0
+	var parts []*fitResult
+	for _, p := range []*fitResult{a, b} {
+		if p != nil {
+			parts = append(parts, p)
+		}
+	}
+	r.width = curve{y0: y0, scale: sc}
+	share := 0.0
+	for _, p := range parts {
+		r.score += p.score
+		r.rms = math.Max(r.rms, p.rms)
+		r.meanSNR = math.Min(r.meanSNR, p.meanSNR)
+		r.satShare = math.Max(r.satShare, p.satShare)
+		k := 1 / float64(len(parts))
+		r.width.a += k * p.width.a
+		r.width.b += k * p.width.b
+		r.width.c += k * p.width.c
+		// the boundary's support along its own stretch
+		share += k * float64(p.inliers) / ((p.yHi-p.yLo)/float64(l.step) + 1)
+	}
+	// The stripe detector's "gaps along the line" factor counts inliers
+	// over the stretch: carry the boundaries' own share of support.
+	r.inliers = int(math.Round(share * ((r.yHi-r.yLo)/float64(l.step) + 1)))
+	return r, true
 }
 
 // curvePoints samples a fitted line over its stretch, near end first, in

@@ -148,6 +148,7 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	for i := range p {
 		p[i] *= inv
 	}
+	c.recordSaturation(k, gm)
 	yc := l.centre(k)
 	c.prefixSums(p)
 	c.ridges(p, gm, widths, l, k, yc, sigma*math.Sqrt(inv), wantLight, wantDark, false, nil)
@@ -196,6 +197,56 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	c.runs = runs
 	c.prefixSums(p)
 	c.ridges(p, gm, widths, l, k, yc, c.profileNoise(p), true, false, true, runs)
+}
+
+// satLevel is the grey level from which a pixel counts as clipped.
+const satLevel = 250
+
+// recordSaturation keeps band k's clipped columns (from gm, the band's
+// maximum grey level per column from the ROI's left edge) as running
+// counts in c.satPrefix, so that unobservable can ask about any stretch of
+// the band.
+func (c *Classical) recordSaturation(k int, gm []float64) {
+	n := len(gm)
+	need := (k + 1) * (n + 1)
+	if len(c.satPrefix) < need {
+		c.satPrefix = append(c.satPrefix, make([]uint16, need-len(c.satPrefix))...)
+	}
+	sp := c.satPrefix[k*(n+1) : need]
+	sp[0] = 0
+	for i, g := range gm {
+		sp[i+1] = sp[i]
+		if g >= satLevel {
+			sp[i+1]++
+		}
+	}
+}
+
+// unobservable says whether a stripe of width w centred at x (working
+// pixels) in band k could not have been measured: it or the side boxes the
+// ridge filter compares it with (half its width on each side) lie partly
+// outside the region of interest (a line leaving the frame at the side),
+// or half of the stripe or of a side box is clipped, so that the stripe,
+// or the floor it must stand out from, is lost in glare. Such a band is
+// missing evidence, not evidence that the line is absent. A clipped
+// streak that only crosses near the line leaves the band observed.
+func (c *Classical) unobservable(l bandLayout, k int, x, w float64) bool {
+	n := l.x1 - l.x0
+	w = math.Max(w, 2)
+	if x-w < float64(l.x0) || x+w > float64(l.x1) || len(c.satPrefix) < (k+1)*(n+1) {
+		return x-w < float64(l.x0) || x+w > float64(l.x1)
+	}
+	sp := c.satPrefix[k*(n+1) : (k+1)*(n+1)]
+	xs := x - float64(l.x0)
+	edge := func(v float64) int { return min(max(int(math.Round(v)), 0), n) }
+	a, b, cc, d := edge(xs-w), edge(xs-0.5*w), edge(xs+0.5*w), edge(xs+w)
+	share := func(p []uint16, lo, hi int) float64 {
+		if hi <= lo {
+			return 0
+		}
+		return float64(p[hi]-p[lo]) / float64(hi-lo)
+	}
+	return share(sp, b, cc) >= 0.5 || share(sp, a, b) >= 0.5 || share(sp, cc, d) >= 0.5
 }
 
 // chromaGain scales chromaticity distance into Weber contrast: a tape
@@ -488,7 +539,7 @@ func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, 
 		if vv < thr {
 			fg++
 		}
-		if gm[i] >= 250 {
+		if gm[i] >= satLevel {
 			satN++
 		}
 		tot++

@@ -48,7 +48,11 @@ const (
 //     support forms at least three separate marks, and run out across a
 //     gap at the vehicle that is no longer on the floor than its own gaps
 //     when two estimates of the unseen stretch agree (and the prediction,
-//     when there is one);
+//     when there is one). Bands where the line could not have been seen
+//     (the stripe or its sides clipped by glare, or off the side of the
+//     frame) are missing evidence: they count neither for nor against it,
+//     and a near end hidden that way is run out to the bottom of the
+//     region;
 //  5. choose among the channels' lines by their support summed over every
 //     channel (tape that is both lighter and coloured beats a tyre mark
 //     that is only darker), keeping only lines that reach the reference
@@ -57,7 +61,8 @@ const (
 //     strong where the two differ (ambiguity; a line that does not narrow
 //     with the chosen line's perspective, such as a rack upright above
 //     the horizon, is not on the floor and does not count), or the line is
-//     far from the prediction.
+//     far from the prediction. A line whose near half is clipped (a
+//     lamp's glare streak) is discounted in the choice as in the score.
 //
 // A Classical is not safe for concurrent use; use one per goroutine.
 type Classical struct {
@@ -86,6 +91,7 @@ type Classical struct {
 	bandCands []candidate
 	byBand    [][2]int
 	widths    []int
+	satPrefix []uint16 // per band, running count of clipped columns (recordSaturation)
 	fit       fitter
 	rng       uint64
 	hairline  float64 // width at which a candidate counts half, working px

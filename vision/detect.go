@@ -23,14 +23,17 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 	chans := c.channels(wantLight, wantDark)
 	// Each channel's best line is scored by its support in every channel:
 	// yellow tape is both lighter than the floor and of another colour, a
-	// tyre mark or a joint of the same width only darker.
+	// tyre mark or a joint of the same width only darker. The score is
+	// discounted for a clipped near half as the confidence is
+	// (nearSatFactor): a lamp's glare streak, refused by report for it,
+	// must not hide the stripe seen beside and beyond it.
 	var bestFull, bestGated *fitResult
 	var fullTotal, gatedTotal float64
 	for _, sel := range chans {
 		r := c.ransac(l, fr.ww, byBand, sel, slot)
 		slot++
 		if c.acceptable(r, l) && (c.bridges(r, l, fr, hint, yRefW) || reaches(r, l, yRefW)) {
-			if t := c.totalScore(r.centre, l, fr.ww, byBand, chans, false); bestFull == nil || t > fullTotal {
+			if t := c.totalScore(r.centre, l, fr.ww, byBand, chans, false) * r.nearSatFactor(); bestFull == nil || t > fullTotal {
 				bestFull, fullTotal = r, t
 			}
 		}
@@ -40,7 +43,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 			g := c.ransac(l, fr.ww, byBand, gs, slot)
 			slot++
 			if c.acceptable(g, l) && (c.bridges(g, l, fr, hint, yRefW) || reaches(g, l, yRefW)) {
-				if t := c.totalScore(g.centre, l, fr.ww, byBand, chans, true); bestGated == nil || t > gatedTotal {
+				if t := c.totalScore(g.centre, l, fr.ww, byBand, chans, true) * g.nearSatFactor(); bestGated == nil || t > gatedTotal {
 					bestGated, gatedTotal = g, t
 				}
 			}
@@ -92,7 +95,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		if float64(apart) < 0.5*c.cfg.MinSpan*float64(l.n) {
 			continue
 		}
-		ambig = math.Max(ambig, s2/math.Max(s1, 1e-9))
+		ambig = math.Max(ambig, s2*r.nearSatFactor()/math.Max(s1, 1e-9))
 	}
 	return c.report(fr, l, chosen, false, fromPrior, ambig, hint, yRefIn, yRefW)
 }
@@ -213,6 +216,30 @@ func reaches(r *fitResult, l bandLayout, yRefW float64) bool {
 	step := float64(l.step)
 	e := math.Max(yRefW-(r.yHi+step), (r.yLo-step)-yRefW)
 	return e < reachWithin(r, l)
+}
+
+// hiddenNearEnd says whether the stretch between line r's near end and the
+// bottom of the region of interest, at most limit rows long, could not
+// have been seen in any band (unobservable along r's tangent: lost in
+// glare, or off the side of the picture). The line is then run out to the
+// bottom, as across a short worn patch: where nothing can be seen, the
+// stripe seen right up to the hidden stretch is the best evidence.
+func (c *Classical) hiddenNearEnd(r *fitResult, l bandLayout, limit float64) bool {
+	if float64(l.y1)-r.yHi > limit {
+		return false
+	}
+	hidden := false
+	for k := 0; k < l.n; k++ {
+		y := l.centre(k)
+		if y <= r.yHi {
+			break
+		}
+		if !c.unobservable(l, k, r.xAt(y), r.width.x(math.Min(y, r.yHi))) {
+			return false
+		}
+		hidden = true
+	}
+	return hidden
 }
 
 // floorLike says whether line r can lie on the same floor as the chosen
@@ -350,8 +377,10 @@ func (c *Classical) gate(fr frameGeom, hint Hint, yRefW float64) {
 }
 
 // acceptable: a fit that spans at least MinSpan of the ROI with support
-// in at least a third of the bands along it, or, for a dotted or dashed
-// line, in a fifth of them spread over at least three separate marks
+// in at least a third of the bands along it where it could be seen
+// (fitResult.observedBands: bands lost in glare or off the frame's side
+// are left out), or, for a dotted or dashed line, in a fifth of them
+// spread over at least three separate marks
 // (runs of two or more bands). Round dots every few times their size
 // cover a quarter to a third of the rows, and their ends, narrow and
 // faint, less; support scattered over single bands (clutter a line
@@ -361,7 +390,7 @@ func (c *Classical) acceptable(r *fitResult, l bandLayout) bool {
 		return false
 	}
 	span := (r.yHi - r.yLo + float64(l.step)) / float64(l.y1-l.y0)
-	bands := (r.yHi-r.yLo)/float64(l.step) + 1
+	bands := r.observedBands(l)
 	if span < c.cfg.MinSpan {
 		return false
 	}
@@ -400,7 +429,7 @@ func clamp01(v float64) float64 { return math.Min(1, math.Max(0, v)) }
 func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromPrior bool, ambig float64, hint Hint, yRefIn, yRefW float64) Detection {
 	roiH := float64(l.y1 - l.y0)
 	step := float64(l.step)
-	spanBands := (r.yHi-r.yLo)/step + 1
+	spanBands := r.observedBands(l)
 	span := (r.yHi - r.yLo + step) / roiH
 
 	// Geometry in input pixels.
@@ -427,7 +456,13 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	if r.dashed(l) {
 		reach = math.Max(reach, 0.5*(r.yHi-r.yLo))
 	}
+	// Near-half bands the line runs through unseen (lost in glare, off the
+	// frame's side), along its measured stretch or run out below it.
+	hiddenNear := float64(r.nearUnseen)
 	if float64(l.y1)-yBot <= reach || r.bridged {
+		yBot = float64(l.y1)
+	} else if c.hiddenNearEnd(r, l, 0.3*roiH) {
+		hiddenNear += (float64(l.y1) - yBot) / step
 		yBot = float64(l.y1)
 	}
 	yTop := math.Max(r.yLo-step/2, float64(l.y0))
@@ -451,10 +486,12 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		{clamp01(1 - 0.5*r.rms*r.rms), "poor fit"},
 		{0.3 + 0.7*clamp01((r.meanSNR-c.cfg.MinSNR)/(2*c.cfg.MinSNR)), "low contrast"},
 		{1 - clamp01((ambig-0.3)/0.6), "ambiguous: another line nearly as strong"},
-		{1 - 0.7*r.satShare, "saturated (glare or reflection)"},
-		// Most of the near half clipped: a reflection streak in line with
-		// a farther stretch of line, not tape (glare saturates only spots).
-		{1 - clamp01(2*(r.nearSat-0.4)), "near part saturated (a mirrored lamp?)"},
+		{r.satFactor(), "saturated (glare or reflection)"},
+		{r.nearSatFactor(), "near part saturated (a mirrored lamp?)"},
+		// Unseen bands are no evidence against the line, but the line is
+		// interpolated across them: across most of the near half, where
+		// guidance measures, it is a guess (none up to 40 %, zero at all).
+		{1 - clamp01((hiddenNear/math.Max(float64(l.n/2), 1)-0.4)/0.6), "near part hidden (glare or the frame's side)"},
 	}
 	// Near the vehicle a stripe is wide: a hairline there (under 1.2 % of
 	// the frame width, or under half the configured width) is more likely

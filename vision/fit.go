@@ -45,6 +45,30 @@ type fitResult struct {
 	// land at the reference row, in units of the agreement required
 	// (see Classical.bridges).
 	bridgeSpread float64
+	// unseen counts the bands along the measured stretch without support
+	// where the line could not have been seen (unobservable: clipped by
+	// glare, or off the side of the frame).
+	unseen int
+	// nearUnseen is unseen over the near (lower) half of the ROI.
+	nearUnseen int
+}
+
+// satFactor is the confidence factor for clipped inliers: a line of
+// clipped pixels may be a lamp's reflection rather than tape.
+func (r *fitResult) satFactor() float64 { return 1 - 0.7*r.satShare }
+
+// nearSatFactor is the confidence factor for a clipped near half: most of
+// it clipped is a reflection streak in line with a farther stretch of
+// line, not tape (glare saturates only spots).
+func (r *fitResult) nearSatFactor() float64 { return 1 - clamp01(2*(r.nearSat-0.4)) }
+
+// observedBands is the number of bands along the measured stretch in
+// which the line could have been seen: every band from yLo to yHi less
+// the unseen ones, but at least half of them, so that a line mostly lost
+// in glare still needs support of its own.
+func (r *fitResult) observedBands(l bandLayout) float64 {
+	bands := (r.yHi-r.yLo)/float64(l.step) + 1
+	return math.Max(bands-float64(r.unseen), bands/2)
 }
 
 // nearLine fits a straight line x = x0 + s·(y − yHi), by weighted least
@@ -518,6 +542,18 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 	if n == 0 {
 		res.ok = false
 		return
+	}
+	res.unseen, res.nearUnseen = 0, 0
+	for k, i := range res.bands {
+		if i >= 0 {
+			continue
+		}
+		if y := l.centre(k); y >= res.yLo && y <= res.yHi && c.unobservable(l, k, res.centre.x(y), res.width.x(y)) {
+			res.unseen++
+			if 2*k < l.n {
+				res.nearUnseen++
+			}
+		}
 	}
 	res.rms = math.Sqrt(r2 / n)
 	res.meanSNR = snr / n

@@ -170,7 +170,12 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	for i := range p {
 		v := base * (1 + chromaGain*math.Hypot(q1[i]-b1, q2[i]-b2))
 		p[i] = v
-		pLo, pHi = math.Min(pLo, v), math.Max(pHi, v)
+		if v < pLo {
+			pLo = v
+		}
+		if v > pHi {
+			pHi = v
+		}
 	}
 	// No box can stand out by more than the profile's range: when nothing
 	// reaches the contrast threshold over the lowest level, the band has
@@ -371,6 +376,32 @@ func (c *Classical) ridges(p, gm []float64, widths []int, l bandLayout, k int, y
 					}
 					prevL, prevD, prev2L, prev2D = 0, 0, 0, 0
 					prevOKL, prevOKD = false, false
+				}
+			}
+			if runs == nil && !prevOKL && !prevOKD {
+				// The common case, kept cheap: positions where neither
+				// polarity passes (as the quick reject below), scanned
+				// without the local-maximum bookkeeping, which after them
+				// holds only the last rejected position.
+				i := c0
+				for ; i+w+f <= n; i += st {
+					mc := (P[i+w] - P[i]) * invW
+					ml := (P[i] - P[i-f]) * invF
+					mr := (P[i+w+f] - P[i+w]) * invF
+					t := minC * ((ml+mr)*0.5 + 8)
+					if (mc-ml >= t && mc-mr >= t) || (ml-mc >= t && mr-mc >= t) {
+						break
+					}
+				}
+				if i > c0 {
+					if i-st > c0 {
+						prevL, prevD = 0, 0
+					}
+					prev2L, prev2D = prevL, prevD
+					prevL, prevD, prevPos = 0, 0, i-st
+				}
+				if c0 = i; c0+w+f > n {
+					break
 				}
 			}
 			pa, pb, pc, pd := P[c0-f], P[c0], P[c0+w], P[c0+w+f]

@@ -207,22 +207,28 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 // satLevel is the grey level from which a pixel counts as clipped.
 const satLevel = 250
 
-// recordSaturation keeps band k's clipped columns (from gm, the band's
-// maximum grey level per column from the ROI's left edge) as running
-// counts in c.satPrefix, so that unobservable can ask about any stretch of
-// the band.
+// recordSaturation keeps band k's clipped columns and its columns outside
+// the picture (from gm, the band's maximum grey level per column from the
+// ROI's left edge) as running counts in c.satPrefix and c.voidPrefix, so
+// that unobservable can ask about any stretch of the band.
 func (c *Classical) recordSaturation(k int, gm []float64) {
 	n := len(gm)
 	need := (k + 1) * (n + 1)
 	if len(c.satPrefix) < need {
 		c.satPrefix = append(c.satPrefix, make([]uint16, need-len(c.satPrefix))...)
 	}
+	if len(c.voidPrefix) < need {
+		c.voidPrefix = append(c.voidPrefix, make([]uint16, need-len(c.voidPrefix))...)
+	}
 	sp := c.satPrefix[k*(n+1) : need]
-	sp[0] = 0
+	vp := c.voidPrefix[k*(n+1) : need]
+	sp[0], vp[0] = 0, 0
 	for i, g := range gm {
-		sp[i+1] = sp[i]
+		sp[i+1], vp[i+1] = sp[i], vp[i]
 		if g >= satLevel {
 			sp[i+1]++
+		} else if g <= voidLevel {
+			vp[i+1]++
 		}
 	}
 }
@@ -231,7 +237,8 @@ func (c *Classical) recordSaturation(k int, gm []float64) {
 // pixels) in band k could not have been measured: it or the side boxes the
 // ridge filter compares it with (half its width on each side) lie partly
 // outside the region of interest (a line leaving the frame at the side),
-// or half of the stripe or of a side box is clipped, so that the stripe,
+// a side box reaches a quarter into the black around a wide lens's image
+// circle (voidLevel), or half of the stripe or of a side box is clipped, so that the stripe,
 // or the floor it must stand out from, is lost in glare. Such a band is
 // missing evidence, not evidence that the line is absent. A clipped
 // streak that only crosses near the line leaves the band observed.
@@ -251,7 +258,9 @@ func (c *Classical) unobservable(l bandLayout, k int, x, w float64) bool {
 		}
 		return float64(p[hi]-p[lo]) / float64(hi-lo)
 	}
-	return share(sp, b, cc) >= 0.5 || share(sp, a, b) >= 0.5 || share(sp, cc, d) >= 0.5
+	vp := c.voidPrefix[k*(n+1) : (k+1)*(n+1)]
+	return share(sp, b, cc) >= 0.5 || share(sp, a, b) >= 0.5 || share(sp, cc, d) >= 0.5 ||
+		share(vp, a, b) >= 0.25 || share(vp, cc, d) >= 0.25
 }
 
 // chromaGain scales chromaticity distance into Weber contrast: a tape
@@ -476,6 +485,27 @@ func (c *Classical) ridges(p, gm []float64, widths []int, l bandLayout, k int, y
 
 const maxPerBand = 8
 
+// voidLevel is the grey level up to which a column whose brightest pixel
+// in the band is no brighter lies outside the picture: the black around a
+// wide lens's image circle (8-bit black with compression noise). Lit
+// floor, even dim and noisy, has a brighter pixel in every band column.
+const voidLevel = 4
+
+// voidShare is the share of columns in [a, b) of gm outside the picture.
+func voidShare(gm []float64, a, b int) float64 {
+	a, b = max(a, 0), min(b, len(gm))
+	if a >= b {
+		return 0
+	}
+	n := 0
+	for _, g := range gm[a:b] {
+		if g <= voidLevel {
+			n++
+		}
+	}
+	return float64(n) / float64(b-a)
+}
+
 // crossing walks from the peak pk in direction dir (±1) to the first
 // pixel past level (in the stripe's sense sgn) and returns the
 // interpolated position of the crossing; limit bounds the walk.
@@ -498,6 +528,12 @@ func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, 
 	sgn := 1.0
 	if dark {
 		sgn = -1
+	}
+	// A ridge whose side lies partly outside the picture (the black
+	// beyond a wide lens's image circle) is the rim of the picture, not a
+	// marking: the floor next to the rim is not lighter than the floor.
+	if voidShare(gm, c0-f, c0) >= 0.25 || voidShare(gm, c0+w, c0+w+f) >= 0.25 {
+		return bc
 	}
 	ml := (P[c0] - P[c0-f]) / float64(f)
 	mr := (P[c0+w+f] - P[c0+w]) / float64(f)

@@ -62,7 +62,11 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 	// chosen line where the two differ (bands where its support is off
 	// the chosen line): a branch or a parallel line as strong as the
 	// stripe there is ambiguous, a curve that follows the stripe and
-	// strays only at its far end onto a glint or a beam is not.
+	// strays only at its far end onto a glint or a beam is not. In the far
+	// half of the region only bands where the chosen line has support of
+	// its own count: a fork claims the same rows as the stripe, while
+	// beyond the chosen line's far end (a bend tighter than its fit, a
+	// wall seen by a wide lens) it is unmeasured, not contradicted.
 	for i := range c.cands {
 		cd := &c.cands[i]
 		cd.taken = math.Abs(cd.x-chosen.centre.x(cd.y)) <= math.Max(1.5*chosen.width.x(cd.y), 2*tolerance(cd, fr.ww))
@@ -84,7 +88,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		var s1, s2 float64
 		apart := 0
 		for k := range theirs {
-			if theirs[k] > 0 {
+			if theirs[k] > 0 && (2*k < l.n || mine[k] > 0) {
 				s2 += theirs[k]
 				s1 += mine[k]
 				apart++

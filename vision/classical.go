@@ -95,7 +95,8 @@ type Classical struct {
 	voidPrefix []uint16 // per band, running count of columns outside the picture
 	fit        fitter
 	rng        uint64
-	hairline   float64 // width at which a candidate counts half, working px
+	hairline   float64      // width at which a candidate counts half, working px
+	mirror     mirrorMotion // the last frame, to tell mirrored lamps by motion
 	closed     bool
 }
 
@@ -140,6 +141,7 @@ func notFound(reason string) Detection {
 func (c *Classical) Detect(img gocv.Mat, hint Hint) Detection {
 	fr, why := c.load(img)
 	if why != "" {
+		c.mirror.forget()
 		return notFound(why)
 	}
 	return c.detect(fr, hint)

@@ -12,8 +12,12 @@ const frameSeed = 0x9E3779B97F4A7C15
 func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 	l, byBand, wantLight, wantDark, why := c.extract(fr)
 	if why != "" {
+		c.mirror.forget()
 		return notFound(why)
 	}
+	// streaks of clipped pixels that do not move with the floor are
+	// mirrored lamps (mirrorMotion)
+	c.mirror.drop(c, fr, l, byBand)
 	yRefIn := c.cfg.RefRow * fr.inH
 	yRefW := fr.toWorkY(yRefIn)
 	c.gate(fr, hint, yRefW)

@@ -179,6 +179,7 @@ func (ln *Lane) Reset() {
 	clear(ln.hcost)
 	clear(ln.hnum)
 	clear(ln.hden)
+	ln.c.mirror.forget()
 }
 
 func laneNotFound(reason string) Detection {
@@ -191,12 +192,17 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	c := ln.c
 	fr, why := c.load(img)
 	if why != "" {
+		ln.c.mirror.forget()
 		return laneNotFound(why)
 	}
 	l, byBand, wantLight, wantDark, why := c.extract(fr)
 	if why != "" {
+		ln.c.mirror.forget()
 		return laneNotFound(why)
 	}
+	// streaks of clipped pixels that do not move with the floor are
+	// mirrored lamps (mirrorMotion)
+	c.mirror.drop(c, fr, l, byBand)
 	if k := [3]int{fr.ww, fr.wh, l.n}; k != ln.key || len(ln.width) != l.n {
 		ln.key, ln.width, ln.prevOK, ln.wlineOK = k, make([]float64, l.n), false, false
 		ln.fm = floorModel{cx: float64(fr.ww) / 2, cy: float64(fr.wh) / 2, f: assumedFocal * float64(fr.ww)}

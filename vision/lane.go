@@ -151,6 +151,7 @@ type Lane struct {
 	prevOK     bool
 	fits       [3]fitResult
 	sides      [2]fitResult
+	cpts       [][3]float64 // scratch for centre
 }
 
 // sideAt is a line's offset and heading at the reference row.
@@ -763,85 +764,42 @@ func bandOf(l bandLayout, y float64) int {
 	return min(max(int((float64(l.y1)-y)/float64(l.step)), 0), l.n-1)
 }
 
-// centre fits the lane's centre: midway between the boundaries on the
-// bands both cover, half the learned width from the one boundary where
-// only one does (at half weight). The result carries the boundaries'
-// summaries, so that the stripe detector's confidence factors apply.
+// centre fits the lane's centre: with one boundary on a known floor, the
+// centre beside it on the floor (onFloor); otherwise, or where that is
+// no plausible quadratic, band by band from the boundaries' image fits
+// (bandCentre). The result carries the boundaries' summaries, so that the
+// stripe detector's confidence factors apply.
 func (ln *Lane) centre(l bandLayout, a, b *fitResult, yRefW float64) (fitResult, bool) {
-	var A [3][3]float64
-	var B [3]float64
-	y0, sc := float64(l.y1), float64(l.y1-l.y0)
-	r := fitResult{ok: true, yLo: math.Inf(1), yHi: math.Inf(-1)}
 	fl, fw, fok := ln.floor(yRefW)
-	n := 0
-	for k := 0; k < l.n; k++ {
-		y := l.centre(k)
-		inA, inB := covers(a, l, y), covers(b, l, y)
-		var x, wt float64
-		switch {
-		case inA && inB:
-			x, wt = (a.centre.x(y)+b.centre.x(y))/2, 1
-		case (inA || inB) && fok:
-			// half the lane's width along the seen boundary's floor normal
-			p, d := a, fw/2
-			if !inA {
-				p, d = b, -d
-			}
-			xc, yc, ok := beside(fl, p.centre.x(y), y, p.centre.slope(y), d)
-			if !ok || yc < float64(l.y0) || yc > float64(l.y1) {
-				continue
-			}
-			x, y, wt = xc, yc, 0.5
-		case inA && ln.across(l, k, 0, a.centre.slope(y)) > 0:
-			x, wt = a.centre.x(y)+ln.across(l, k, 0, a.centre.slope(y))/2, 0.5
-		case inB && ln.across(l, k, 1, b.centre.slope(y)) > 0:
-			x, wt = b.centre.x(y)-ln.across(l, k, 1, b.centre.slope(y))/2, 0.5
-		default:
-			continue
+	var r fitResult
+	ok := false
+	if fok && (a == nil) != (b == nil) {
+		// One boundary on a known floor: the centre beside it on the
+		// floor (onFloor); where that is no plausible quadratic, the
+		// bands as below.
+		p, d := a, fw/2
+		if p == nil {
+			p, d = b, -d
 		}
-		t := (y - y0) / sc
-		v := [3]float64{1, t, t * t}
-		for i := 0; i < 3; i++ {
-			for j := 0; j < 3; j++ {
-				A[i][j] += wt * v[i] * v[j]
-			}
-			B[i] += wt * v[i] * x
+		ln.cpts = ln.onFloor(fl, l, p, d, ln.cpts[:0])
+		// points in order along the lane: where the whole is no
+		// plausible quadratic (the lane turns too far in view), the
+		// farthest are left out until it is
+		pts := ln.cpts
+		r, ok = fitCentre(l, pts)
+		for i := 0; i < 4 && !ok && len(pts) >= 10; i++ {
+			pts = pts[:len(pts)*5/6]
+			r, ok = fitCentre(l, pts)
 		}
-		r.yLo, r.yHi = math.Min(r.yLo, y), math.Max(r.yHi, y)
-		n++
 	}
-	if n < 5 {
-		return r, false
+	if !ok {
+		r, ok = ln.bandCentre(l, a, b, fl, fw, fok)
 	}
-	A[2][2] += 1e-6 * A[0][0]
-	sol, ok := solve3(A, B)
 	if !ok {
 		return r, false
 	}
-	r.centre = curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
-	// Where the centre comes from one boundary, the lane's centre beside
-	// that boundary's far end lies nearer in the image when the lane bends
-	// towards the other side: the centre is run out to the boundary's far
-	// end, as the lane runs on there.
-	if fok && (a == nil || b == nil) {
-		p := a
-		if p == nil {
-			p = b
-		}
-		if p.yLo < r.yLo && r.yHi-r.yLo > 0.25*float64(l.y1-l.y0) {
-			r.yLo = math.Max(p.yLo, r.yLo-0.5*(r.yHi-r.yLo))
-		}
-	}
-	// Plausible over the stretch it was fitted on: where the boundaries
-	// were fitted over the nearer rows only (a bend), a quadratic run out
-	// to the far end of the ROI may lean or bend past the limits.
-	over := l
-	over.y0, over.y1 = int(math.Floor(r.yLo)), int(math.Ceil(r.yHi))
-	if !plausible(r.centre, over) {
-		return r, false
-	}
+	y0, sc := float64(l.y1), float64(l.y1-l.y0)
 	// Summaries: the support and quality of the boundaries used.
-	r.inliers = n
 	r.meanSNR, r.rms = math.Inf(1), 0
 	var parts []*fitResult
 	for _, p := range []*fitResult{a, b} {
@@ -867,6 +825,97 @@ func (ln *Lane) centre(l bandLayout, a, b *fitResult, yRefW float64) (fitResult,
 	// over the stretch: carry the boundaries' own share of support.
 	r.inliers = int(math.Round(share * ((r.yHi-r.yLo)/float64(l.step) + 1)))
 	return r, true
+}
+
+// bandCentre is the centre from the boundaries' image fits, band by
+// band: midway between them where both are, half the lane's width from
+// the one there (on the floor when fok, at half weight) otherwise. With
+// one boundary on the floor, the centre is run out to that boundary's far
+// end (the lane runs on there).
+func (ln *Lane) bandCentre(l bandLayout, a, b *fitResult, fl laneFloor, fw float64, fok bool) (fitResult, bool) {
+	pts := ln.cpts[:0]
+	for k := 0; k < l.n; k++ {
+		y := l.centre(k)
+		inA, inB := covers(a, l, y), covers(b, l, y)
+		var x, wt float64
+		switch {
+		case inA && inB:
+			x, wt = (a.centre.x(y)+b.centre.x(y))/2, 1
+		case (inA || inB) && fok:
+			// half the lane's width along the seen boundary's floor normal
+			p, d := a, fw/2
+			if !inA {
+				p, d = b, -d
+			}
+			xc, yc, ok := beside(fl, p.centre.x(y), y, p.centre.slope(y), d)
+			if !ok || yc < float64(l.y0) || yc > float64(l.y1) {
+				continue
+			}
+			x, y, wt = xc, yc, 0.5
+		case inA && ln.across(l, k, 0, a.centre.slope(y)) > 0:
+			x, wt = a.centre.x(y)+ln.across(l, k, 0, a.centre.slope(y))/2, 0.5
+		case inB && ln.across(l, k, 1, b.centre.slope(y)) > 0:
+			x, wt = b.centre.x(y)-ln.across(l, k, 1, b.centre.slope(y))/2, 0.5
+		default:
+			continue
+		}
+		pts = append(pts, [3]float64{x, y, wt})
+	}
+	ln.cpts = pts
+	r, ok := fitCentre(l, pts)
+	if !ok || !fok || (a == nil) == (b == nil) {
+		return r, ok
+	}
+	p := a
+	if p == nil {
+		p = b
+	}
+	if p.yLo < r.yLo && r.yHi-r.yLo > 0.25*float64(l.y1-l.y0) {
+		r.yLo = math.Max(p.yLo, r.yLo-0.5*(r.yHi-r.yLo))
+		over := l
+		over.y0, over.y1 = int(math.Floor(r.yLo)), int(math.Ceil(r.yHi))
+		ok = plausible(r.centre, over)
+	}
+	return r, ok
+}
+
+// fitCentre fits the centre's quadratic to the points (working x, y and
+// weight), by weighted least squares; r.inliers is the number of points.
+// ok false with fewer than five or when the quadratic is not plausible
+// over the rows it was fitted on (see plausible).
+func fitCentre(l bandLayout, pts [][3]float64) (r fitResult, ok bool) {
+	var A [3][3]float64
+	var B [3]float64
+	y0, sc := float64(l.y1), float64(l.y1-l.y0)
+	r = fitResult{ok: true, yLo: math.Inf(1), yHi: math.Inf(-1)}
+	for _, p := range pts {
+		x, y, wt := p[0], p[1], p[2]
+		t := (y - y0) / sc
+		v := [3]float64{1, t, t * t}
+		for i := 0; i < 3; i++ {
+			for j := 0; j < 3; j++ {
+				A[i][j] += wt * v[i] * v[j]
+			}
+			B[i] += wt * v[i] * x
+		}
+		r.yLo, r.yHi = math.Min(r.yLo, y), math.Max(r.yHi, y)
+	}
+	if len(pts) < 5 {
+		return r, false
+	}
+	A[2][2] += 1e-6 * A[0][0]
+	sol, ok := solve3(A, B)
+	if !ok {
+		return r, false
+	}
+	r.centre = curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
+	r.inliers = len(pts)
+	// Plausible over the stretch it was fitted on: where the boundaries
+	// were fitted over the nearer rows only (a bend), a quadratic run out
+	// to the far end of the ROI may lean or bend past the limits.
+	over := l
+	over.y0, over.y1 = int(math.Floor(r.yLo)), int(math.Ceil(r.yHi))
+	return r, plausible(r.centre, over)
 }
 
 // curvePoints samples a fitted line over its stretch, near end first, in

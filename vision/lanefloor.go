@@ -210,3 +210,310 @@ func floorSpread(qa, qb [][2]float64) (mu, r2 float64, ok bool) {
 	mu = sd / n
 	return mu, math.Max(sdd/n-mu*mu, 0) / (mu * mu), true
 }
+
+// floorCircle is a circle on the floor fitted to a line's points, or a
+// straight line when they are (nearly) collinear, with the way the points
+// run along it.
+type floorCircle struct {
+	ox, oz, r float64 // centre and radius (circle)
+	ccw       bool    // the points run counter-clockwise (X right, Z forward)
+	straight  bool
+	px, pz    float64 // a point of the line (straight)
+	tx, tz    float64 // its forward unit direction (straight)
+}
+
+// fitFloorCircle fits a circle by Kåsa's algebraic least squares (I.
+// Kåsa, "A circle fitting procedure and its error analysis", IEEE Trans.
+// Instrum. Meas. 25(1), 1976) to the floor points q, ordered near end
+// first. Points on a line (a radius beyond a thousand times their extent)
+// give the line through them. ok false with fewer than four points or
+// none spread.
+func fitFloorCircle(q [][2]float64) (floorCircle, bool) {
+	n := len(q)
+	if n < 4 {
+		return floorCircle{}, false
+	}
+	var mx, mz float64
+	for _, p := range q {
+		mx += p[0]
+		mz += p[1]
+	}
+	mx, mz = mx/float64(n), mz/float64(n)
+	var A [3][3]float64
+	var B [3]float64
+	var suu, suv, svv float64
+	for _, p := range q {
+		u, v := p[0]-mx, p[1]-mz
+		suu, suv, svv = suu+u*u, suv+u*v, svv+v*v
+		r := u*u + v*v
+		row := [3]float64{u, v, 1}
+		for i := 0; i < 3; i++ {
+			for j := 0; j < 3; j++ {
+				A[i][j] += row[i] * row[j]
+			}
+			B[i] -= row[i] * r
+		}
+	}
+	first, last := q[0], q[n-1]
+	extent := math.Hypot(last[0]-first[0], last[1]-first[1])
+	if extent == 0 {
+		return floorCircle{}, false
+	}
+	// the line: the principal direction of the points, pointing on
+	th := 0.5 * math.Atan2(2*suv, suu-svv)
+	tx, tz := math.Cos(th), math.Sin(th)
+	if tx*(last[0]-first[0])+tz*(last[1]-first[1]) < 0 {
+		tx, tz = -tx, -tz
+	}
+	line := floorCircle{straight: true, px: mx, pz: mz, tx: tx, tz: tz}
+	sol, ok := solve3(A, B)
+	if !ok {
+		return line, true
+	}
+	r2 := (sol[0]*sol[0]+sol[1]*sol[1])/4 - sol[2]
+	if !(r2 > 0) || r2 > 1e6*extent*extent {
+		return line, true
+	}
+	c := floorCircle{ox: mx - sol[0]/2, oz: mz - sol[1]/2, r: math.Sqrt(r2)}
+	c.ccw = (first[0]-c.ox)*(last[1]-c.oz)-(first[1]-c.oz)*(last[0]-c.ox) > 0
+	return c, true
+}
+
+// nearest is the point of c nearest p, the forward unit tangent there and
+// the distance from p.
+func (c floorCircle) nearest(p [2]float64) (X, Z, tx, tz, dist float64) {
+	if c.straight {
+		t := (p[0]-c.px)*c.tx + (p[1]-c.pz)*c.tz
+		X, Z = c.px+t*c.tx, c.pz+t*c.tz
+		return X, Z, c.tx, c.tz, math.Hypot(p[0]-X, p[1]-Z)
+	}
+	ex, ez := p[0]-c.ox, p[1]-c.oz
+	e := math.Hypot(ex, ez)
+	if e == 0 {
+		ex, ez, e = 1, 0, 1
+	}
+	ex, ez = ex/e, ez/e
+	tx, tz = -ez, ex
+	if !c.ccw {
+		tx, tz = -tx, -tz
+	}
+	return c.ox + c.r*ex, c.oz + c.r*ez, tx, tz, math.Abs(e - c.r)
+}
+
+// on is the point of c at arc length s on from its point nearest p, and
+// the forward unit tangent there.
+func (c floorCircle) on(p [2]float64, s float64) (X, Z, tx, tz float64) {
+	X, Z, tx, tz, _ = c.nearest(p)
+	if c.straight {
+		return X + s*tx, Z + s*tz, tx, tz
+	}
+	a := s / c.r
+	if !c.ccw {
+		a = -a
+	}
+	ex, ez := (X-c.ox)/c.r, (Z-c.oz)/c.r
+	ca, sa := math.Cos(a), math.Sin(a)
+	ex, ez = ex*ca-ez*sa, ex*sa+ez*ca
+	tx, tz = -ez, ex
+	if !c.ccw {
+		tx, tz = -tx, -tz
+	}
+	return c.ox + c.r*ex, c.oz + c.r*ez, tx, tz
+}
+
+// onFloor appends to the centre's points pts (working x, y and weight,
+// in order along the lane) the centre inferred from boundary p alone on
+// the floor f, at distance d along its right-hand normal (as beside). A
+// boundary seen in perspective through a bend is no quadratic in the
+// image (it flattens towards the horizon ever faster): its image fit
+// bends too little at its far end and stops short there, and so does a
+// centre built on it. On the floor it is a circle over a few metres, so
+// everything is done there, from p's measured candidates (not its image
+// fit):
+//
+//  1. each candidate's place and direction come from a circle fitted to
+//     its neighbours on the floor (at least arcMin either side, and a
+//     quarter of a lane's width along the line where the bands lie
+//     close);
+//  2. a circle fitted to the farther half is grown band by band with the
+//     candidates beyond p's far end that lie on it (where the image fit
+//     could no longer follow);
+//  3. the centre is put beside each, then beside that circle run on for
+//     up to a lane's width (2|d|) past the last candidate, up to its row
+//     (the lane is seen to run on up to there).
+//
+// The centre stops where it runs flatter in the image than
+// maxCentreAngle (a quadratic x(y) cannot follow it there) or jumps
+// (maxCentreGap).
+func (ln *Lane) onFloor(f laneFloor, l bandLayout, p *fitResult, d float64, pts [][3]float64) [][3]float64 {
+	cands := ln.c.cands
+	q := ln.qa[:0]
+	kLast, yLast := -1, p.yLo
+	yMid := (p.yLo + p.yHi) / 2
+	var nearX, nearY []float64
+	for k, i := range p.bands {
+		if i < 0 {
+			continue
+		}
+		cd := &cands[i]
+		x := cd.x
+		if cd.y > yMid {
+			x = p.centre.x(cd.y) // the near half: the image fit, smoother
+		}
+		if X, Z, ok := f.toFloor(x, cd.y); ok {
+			if cd.y > yMid {
+				nearX, nearY = append(nearX, x), append(nearY, cd.y)
+			}
+			q = append(q, [2]float64{X, Z})
+			kLast, yLast = k, cd.y
+		}
+	}
+	ln.qa = q
+	h := len(q) / 2
+	if h < 4 || d == 0 {
+		return pts
+	}
+	far, ok := fitFloorCircle(q[h:])
+	if !ok {
+		return pts
+	}
+	miss := 0
+	for k := kLast + 1; k < l.n && miss <= 2; k++ {
+		best, bestD := -1, math.Inf(1)
+		var bp [2]float64
+		for i := range cands {
+			cd := &cands[i]
+			if cd.band != k {
+				continue
+			}
+			X, Z, ok := f.toFloor(cd.x, cd.y)
+			if !ok {
+				continue
+			}
+			// within the candidate's half width and two pixels, across
+			// the line on the floor there
+			sx, _, ok := f.toFloor(cd.x+2+cd.w/2, cd.y)
+			if !ok {
+				continue
+			}
+			if _, _, _, _, dist := far.nearest([2]float64{X, Z}); dist <= math.Abs(sx-X) && dist < bestD {
+				best, bestD, bp = i, dist, [2]float64{X, Z}
+			}
+		}
+		if best < 0 {
+			miss++
+			continue
+		}
+		miss = 0
+		q = append(q, bp)
+		yLast = cands[best].y
+		if c, ok := fitFloorCircle(q[h:]); ok {
+			far = c
+		}
+	}
+	ln.qa = q
+	var last [3]float64
+	y0, y1 := float64(l.y0), float64(l.y1)
+	nNear := len(nearX)
+	var putImage func(x, y float64) bool
+	put := func(X, Z, tx, tz float64) bool {
+		x, y, ok := f.toImage(X+d*tz, Z-d*tx)
+		if !ok {
+			return len(pts) == 0
+		}
+		return putImage(x, y)
+	}
+	putImage = func(x, y float64) bool {
+		if y > y1 {
+			return len(pts) == 0 // below the ROI: only at the near end
+		}
+		if y < y0 {
+			return false
+		}
+		if len(pts) > 0 && y >= last[1] {
+			return true // not farther up than the last: skipped
+		}
+		// no jump (within maxCentreGap bands of the last point), and the
+		// direction over the last few rows (neighbours jitter) no
+		// flatter than maxCentreAngle
+		if len(pts) > 0 && last[1]-y > maxCentreGap*float64(l.step) {
+			return false
+		}
+		for j := len(pts) - 1; j >= 0; j-- {
+			if q := pts[j]; q[1]-y >= slopeRows {
+				if math.Abs(x-q[0]) > math.Tan(maxCentreAngle)*(q[1]-y) {
+					return false
+				}
+				break
+			}
+		}
+		last = [3]float64{x, y, 0.5}
+		pts = append(pts, last)
+		return true
+	}
+	// arc length along q, for the neighbourhoods
+	cs := ln.fcost[:0]
+	for i := range q {
+		s := 0.0
+		if i > 0 {
+			s = cs[i-1] + math.Hypot(q[i][0]-q[i-1][0], q[i][1]-q[i-1][1])
+		}
+		cs = append(cs, s)
+	}
+	ln.fcost = cs
+	lo, hi := 0, 0
+	for i, pt := range q {
+		// the circle through the point's neighbours, arcMin and a
+		// quarter of a lane's width (|d|/2) along the line either side
+		// (near the camera the bands lie close on the floor: a few would
+		// give no direction)
+		for cs[i]-cs[lo] > 0.5*math.Abs(d) && i-lo > arcMin {
+			lo++
+		}
+		for hi < len(q) && (cs[hi]-cs[i] <= 0.5*math.Abs(d) || hi-i <= arcMin) {
+			hi++
+		}
+		if i < nNear {
+			// the near half: beside the image fit, as bandCentre
+			if xc, yc, ok := beside(f, nearX[i], nearY[i], p.centre.slope(nearY[i]), d); ok && !putImage(xc, yc) {
+				return pts
+			}
+			continue
+		}
+		c, ok := fitFloorCircle(q[lo:hi])
+		if !ok {
+			continue
+		}
+		X, Z, tx, tz, _ := c.nearest(pt)
+		if !put(X, Z, tx, tz) {
+			return pts
+		}
+	}
+	top := math.Max(yLast, y0)
+	step := math.Abs(d) / 8
+	for i := 1; i <= 16 && last[1] > top; i++ {
+		X, Z, tx, tz := far.on(q[len(q)-1], float64(i)*step)
+		if !put(X, Z, tx, tz) {
+			break
+		}
+	}
+	return pts
+}
+
+// maxCentreAngle and maxCentreGap bound the centre inferred from one
+// boundary (see onFloor): its image direction at most 68° from the
+// image's vertical (|dx/dy| 2.5), and no more than 6 bands between one
+// point and the next (a candidate grown onto the circle by chance).
+const (
+	maxCentreAngle = 68 * math.Pi / 180
+	maxCentreGap   = 6
+)
+
+// slopeRows is how many working rows back the centre's direction is
+// taken from, when it is checked against maxCentreAngle.
+const slopeRows = 6
+
+// arcMin is the fewest neighbours on either side of a boundary point
+// that the circle giving its place and direction on the floor is fitted
+// to.
+const arcMin = 6

@@ -270,10 +270,17 @@ func (t *Tracker) Predict(now time.Duration) (offset, heading, offsetSigma, head
 		return 0, 0, 0, 0, false
 	}
 	dt := (now - t.filterT).Seconds()
-	xo, po := t.off.Predicted(dt)
-	xh, ph := t.head.Predicted(dt)
-	offsetSigma = math.Sqrt(po[0][0] + t.off.MeasSigma*t.off.MeasSigma)
-	headingSigma = math.Sqrt(ph[0][0] + t.head.MeasSigma*t.head.MeasSigma)
+	// The detector's prior comes from the smooth-running model (the
+	// first of the bank), not from the model in use: its prediction is
+	// steadier frame to frame. With the model in use as the prior, the
+	// lane detector's one-boundary centre (which moves the previous
+	// frame's boundaries by the prior's change) lost lane-s-curve at
+	// 320x240 from 0.890 to 0.663; rolling-shutter costs 0.977 -> 0.950.
+	b0 := &t.bank.m[0]
+	xo, po := b0.off.Predicted(dt)
+	xh, ph := b0.head.Predicted(dt)
+	offsetSigma = math.Sqrt(po[0][0] + b0.off.MeasSigma*b0.off.MeasSigma)
+	headingSigma = math.Sqrt(ph[0][0] + b0.head.MeasSigma*b0.head.MeasSigma)
 	return xo[0], xh[0], offsetSigma, headingSigma, true
 }
 

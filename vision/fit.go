@@ -174,12 +174,7 @@ func (c *Classical) perspLine(r *fitResult, l bandLayout, y float64) (x, slope f
 		u := cd.y - yh
 		v := [3]float64{1, u / 100, 100 / u}
 		wt := c.weight(cd, l)
-		for a := 0; a < 3; a++ {
-			for b := 0; b < 3; b++ {
-				A[a][b] += wt * v[a] * v[b]
-			}
-			B[a] += wt * v[a] * cd.x
-		}
+		addNormal(&A, &B, v, wt, cd.x)
 		n++
 	}
 	if n < 6 {
@@ -490,12 +485,7 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 			t := (cd.y - y0) / sc
 			wt := c.weight(cd, l)
 			v := [3]float64{1, t, t * t}
-			for r := 0; r < 3; r++ {
-				for s := 0; s < 3; s++ {
-					A[r][s] += wt * v[r] * v[s]
-				}
-				B[r] += wt * v[r] * cd.x
-			}
+			addNormal(&A, &B, v, wt, cd.x)
 			n++
 		}
 		if n < 3 {
@@ -596,4 +586,15 @@ func solve3(A [3][3]float64, b [3]float64) ([3]float64, bool) {
 		x[r] = s / A[r][r]
 	}
 	return x, true
+}
+
+// addNormal adds one weighted observation x ≈ v·c to the normal equations
+// A c = B of a three-parameter least-squares fit.
+func addNormal(A *[3][3]float64, B *[3]float64, v [3]float64, w, x float64) {
+	for r := 0; r < 3; r++ {
+		for s := 0; s < 3; s++ {
+			A[r][s] += w * v[r] * v[s]
+		}
+		B[r] += w * v[r] * x
+	}
 }

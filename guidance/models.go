@@ -104,9 +104,18 @@ func (b *modelBank) update(m Measurement, dt float64) {
 	b.sel = best
 }
 
-// inUse returns the selected model's filters.
-func (b *modelBank) inUse() (off, head KalmanCV) {
-	return b.m[b.sel].off, b.m[b.sel].head
+// use is the model in use; smooth the smooth-running one (ModelAccelFactors[0]).
+func (b *modelBank) use() *model    { return &b.m[b.sel] }
+func (b *modelBank) smooth() *model { return &b.m[0] }
+
+// ready reports whether the models hold a track (init since the last clear).
+func (b *modelBank) ready() bool { return b.m[0].off.Ready }
+
+// clear forgets the track (the models keep their noise levels).
+func (b *modelBank) clear() {
+	for i := range b.m {
+		b.m[i].off.Ready, b.m[i].head.Ready = false, false
+	}
 }
 
 // gateNIS is the innovation test statistic of m for a locked track. While
@@ -117,8 +126,9 @@ func (b *modelBank) inUse() (off, head KalmanCV) {
 // line back in, and a line that really moved is taken up by the step
 // candidate (StepConfirmFrames agreeing measurements) instead.
 func (t *Tracker) gateNIS(m Measurement) float64 {
+	md := t.bank.use()
 	if t.state == Coasting {
-		return nis(&t.bank.m[0].off, &t.bank.m[0].head, m)
+		md = t.bank.smooth()
 	}
-	return nis(&t.off, &t.head, m)
+	return nis(&md.off, &md.head, m)
 }

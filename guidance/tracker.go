@@ -102,11 +102,10 @@ type Tracker struct {
 	note        string        // why the latest frame was not used
 	lostReason  string        // why the fail-safe turned on
 
-	off, head KalmanCV      // the filter in use: a copy of bank's selected model
-	bank      modelBank     // motion models compared on the measurements (models.go)
-	reach     reachTrack    // how far the accepted lines reached (reach.go)
-	filterT   time.Duration // time the filter state refers to
-	updateT   time.Duration // time of the bank's latest update
+	bank    modelBank     // the filters: motion models compared on the measurements (models.go)
+	reach   reachTrack    // how far the accepted lines reached (reach.go)
+	filterT time.Duration // time the filter state refers to
+	updateT time.Duration // time of the bank's latest update
 
 	// Acquisition run (Seeking, Regaining): measurements agreeing with
 	// each other, with no gap longer than MaxFrameGap.
@@ -177,10 +176,9 @@ func (t *Tracker) Reset() {
 		cfg:     cfg,
 		gate:    ChiSquareQuantile(cfg.GateProbability, 2),
 		pxScale: s,
-		off:     NewKalmanCV(cfg.OffsetAccel*s, cfg.OffsetNoisePx*s),
-		head:    NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg),
 	}
-	t.cand.off, t.cand.head = t.off, t.head
+	t.cand.off = NewKalmanCV(cfg.OffsetAccel*s, cfg.OffsetNoisePx*s)
+	t.cand.head = NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg)
 	t.bank.setNoise(cfg.OffsetAccel*s, cfg.OffsetNoisePx*s, cfg.HeadingAccel, cfg.HeadingNoiseDeg)
 }
 
@@ -205,11 +203,8 @@ func (t *Tracker) SetFrameWidth(w int) {
 		return
 	}
 	t.pxScale = s
-	for _, k := range []*KalmanCV{&t.off, &t.cand.off} {
-		k.AccelSigma, k.MeasSigma = t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s
-	}
+	t.cand.off.AccelSigma, t.cand.off.MeasSigma = t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s
 	t.bank.setNoise(t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s, t.cfg.HeadingAccel, t.cfg.HeadingNoiseDeg)
-	t.off, t.head = t.bank.inUse()
 }
 
 // offsetRateSigma is OffsetRateSigma at the frame's width.
@@ -266,7 +261,7 @@ func (t *Tracker) Fault(now time.Duration, reason string) Estimate {
 // ok is false when there is no track to predict from (Lost, or nothing seen
 // yet). Predict does not change the tracker.
 func (t *Tracker) Predict(now time.Duration) (offset, heading, offsetSigma, headingSigma float64, ok bool) {
-	if !t.off.Ready || t.state == Lost {
+	if !t.bank.ready() || t.state == Lost {
 		return 0, 0, 0, 0, false
 	}
 	dt := (now - t.filterT).Seconds()
@@ -276,7 +271,7 @@ func (t *Tracker) Predict(now time.Duration) (offset, heading, offsetSigma, head
 	// lane detector's one-boundary centre (which moves the previous
 	// frame's boundaries by the prior's change) lost lane-s-curve at
 	// 320x240 from 0.890 to 0.663; rolling-shutter costs 0.977 -> 0.950.
-	b0 := &t.bank.m[0]
+	b0 := t.bank.smooth()
 	xo, po := b0.off.Predicted(dt)
 	xh, ph := b0.head.Predicted(dt)
 	offsetSigma = math.Sqrt(po[0][0] + b0.off.MeasSigma*b0.off.MeasSigma)
@@ -325,7 +320,7 @@ func (t *Tracker) checkTimers(now time.Duration) {
 		if now-t.runLast > t.cfg.MaxFrameGap {
 			t.runActive = false
 			t.state = Lost
-			t.off.Ready, t.head.Ready = false, false
+			t.bank.clear()
 		}
 	}
 }
@@ -349,7 +344,7 @@ func (t *Tracker) toLost(reason string) {
 	t.lostReason = reason
 	t.runActive = false
 	t.cand.active = false
-	t.off.Ready, t.head.Ready = false, false
+	t.bank.clear()
 	t.conf = 0
 }
 
@@ -430,7 +425,6 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		t.reach.reset()
 		t.reach.add(now, m)
 		t.bank.adopt(c.off, c.head)
-		t.off, t.head = t.bank.inUse()
 		t.filterT, t.updateT = now, now
 		c.active = false
 		t.lastGated = false
@@ -456,12 +450,13 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 		}
 		return
 	}
-	if !t.runActive || !t.off.Ready {
+	if !t.runActive || !t.bank.ready() {
 		t.startRun(now, m)
 		return
 	}
 	t.predictTo(now)
-	if d2 := nis(&t.off, &t.head, m); d2 > t.gate {
+	md := t.bank.use()
+	if d2 := nis(&md.off, &md.head, m); d2 > t.gate {
 		// The run disagrees with itself: start again from the newest
 		// measurement rather than lock onto either.
 		t.lastGated = true
@@ -487,7 +482,6 @@ func (t *Tracker) updateAcquiring(now time.Duration, m Measurement) {
 // ReacquireFor is 0.
 func (t *Tracker) startRun(now time.Duration, m Measurement) {
 	t.bank.init(m, t.offsetRateSigma(), t.cfg.HeadingRateSigma)
-	t.off, t.head = t.bank.inUse()
 	t.filterT, t.updateT = now, now
 	t.runActive, t.runStart, t.runLast = true, now, now
 	t.runFrames, t.runUsed, t.runMisses = 1, 1, 0
@@ -530,7 +524,6 @@ func (t *Tracker) accept(now time.Duration, m Measurement) {
 func (t *Tracker) predictTo(now time.Duration) {
 	dt := (now - t.filterT).Seconds()
 	t.bank.predict(dt)
-	t.off, t.head = t.bank.inUse()
 	t.filterT = now
 }
 
@@ -539,7 +532,6 @@ func (t *Tracker) predictTo(now time.Duration) {
 func (t *Tracker) updateBank(now time.Duration, m Measurement) {
 	t.bank.update(m, (now - t.updateT).Seconds())
 	t.updateT = now
-	t.off, t.head = t.bank.inUse()
 }
 
 func (t *Tracker) estimate(now time.Duration) Estimate {
@@ -551,10 +543,10 @@ func (t *Tracker) estimate(now time.Duration) Estimate {
 		Gated:    t.lastGated,
 		Measured: t.measured && t.state.Trusted(),
 	}
-	if t.off.Ready {
+	if md := t.bank.use(); md.off.Ready {
 		dt := (now - t.filterT).Seconds()
-		xo, _ := t.off.Predicted(dt)
-		xh, _ := t.head.Predicted(dt)
+		xo, _ := md.off.Predicted(dt)
+		xh, _ := md.head.Predicted(dt)
 		e.OffsetPx, e.OffsetRate = xo[0], xo[1]
 		e.HeadingDeg, e.HeadingRate = xh[0], xh[1]
 	}

@@ -1,13 +1,10 @@
 package vision
 
 import (
-	"errors"
-	"io"
 	"math"
 	"testing"
 
-	"github.com/hewline/hewline/capture/synth"
-	"gocv.io/x/gocv"
+	"github.com/hewline/hewline/capture/truth"
 )
 
 // framePrior is the Hint a tracker locked on the truth would give: the
@@ -25,40 +22,17 @@ func framePrior(off, head float64) Hint {
 // guidance default).
 func dashScore(t *testing.T, name string, w, h, every int, withPrior bool) (s clipScore) {
 	t.Helper()
-	sc := lookup(t, name).Resized(w, h)
-	r, err := synth.New(sc)
-	if err != nil {
-		t.Fatal(err)
+	var prior func(truth.Frame) Hint
+	if withPrior {
+		prior = func(tf truth.Frame) Hint { return framePrior(tf.OffsetPx, tf.HeadingDeg) }
 	}
-	defer r.Close()
-	det, err := NewClassical(DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer det.Close()
-	img := gocv.NewMat()
-	defer img.Close()
-	for i := 0; ; i++ {
-		if _, err := r.Read(&img); errors.Is(err, io.EOF) {
-			break
-		} else if err != nil {
-			t.Fatal(err)
-		}
-		if i%every != 0 {
-			continue
-		}
-		tf := r.Truth()
-		hint := Hint{}
-		if withPrior {
-			hint = framePrior(tf.OffsetPx, tf.HeadingDeg)
-		}
-		d := det.Detect(img, hint)
+	detectEvery(t, lookup(t, name).Resized(w, h), DefaultConfig(), every, prior, func(i int, tf truth.Frame, d Detection) {
 		if !tf.Visible {
 			s.hidden++
 			if d.Found && d.Confidence >= 0.4 {
 				s.falseTrack++
 			}
-			continue
+			return
 		}
 		s.visible++
 		switch {
@@ -68,7 +42,7 @@ func dashScore(t *testing.T, name string, w, h, every int, withPrior bool) (s cl
 			s.wrongConfident++
 			t.Logf("frame %d: offset %.1f px (truth %.1f), heading %.1f° (truth %.1f), confidence %.2f, points rows %.0f–%.0f", i, d.OffsetPx, tf.OffsetPx, d.HeadingDeg, tf.HeadingDeg, d.Confidence, d.Points[0].Y, d.Points[len(d.Points)-1].Y)
 		}
-	}
+	})
 	return s
 }
 

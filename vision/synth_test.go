@@ -63,7 +63,10 @@ func matches(d Detection, tf truth.Frame, w, h int) bool {
 	return n > 0 && float64(ok) >= 0.85*float64(n)
 }
 
-func scoreClip(t *testing.T, sc synth.Scenario, every int, cfg Config) clipScore {
+// detectEvery renders scenario sc, runs a classical detector with cfg on
+// every every-th frame, with the hint hint gives for the frame's truth (nil:
+// none), and hands each frame's index, truth and detection to fn.
+func detectEvery(t *testing.T, sc synth.Scenario, cfg Config, every int, hint func(truth.Frame) Hint, fn func(i int, tf truth.Frame, d Detection)) {
 	t.Helper()
 	r, err := synth.New(sc)
 	if err != nil {
@@ -77,8 +80,6 @@ func scoreClip(t *testing.T, sc synth.Scenario, every int, cfg Config) clipScore
 	defer det.Close()
 	img := gocv.NewMat()
 	defer img.Close()
-	var s clipScore
-	var errs []float64
 	for i := 0; ; i++ {
 		if _, err := r.Read(&img); errors.Is(err, io.EOF) {
 			break
@@ -89,7 +90,19 @@ func scoreClip(t *testing.T, sc synth.Scenario, every int, cfg Config) clipScore
 			continue
 		}
 		tf := r.Truth()
-		d := det.Detect(img, Hint{})
+		h := Hint{}
+		if hint != nil {
+			h = hint(tf)
+		}
+		fn(i, tf, det.Detect(img, h))
+	}
+}
+
+func scoreClip(t *testing.T, sc synth.Scenario, every int, cfg Config) clipScore {
+	t.Helper()
+	var s clipScore
+	var errs []float64
+	detectEvery(t, sc, cfg, every, nil, func(_ int, tf truth.Frame, d Detection) {
 		good := tf.Visible && matches(d, tf, sc.Width, sc.Height)
 		if tf.Visible {
 			s.visible++
@@ -109,7 +122,7 @@ func scoreClip(t *testing.T, sc synth.Scenario, every int, cfg Config) clipScore
 			s.conf = append(s.conf, d.Confidence)
 			s.ok = append(s.ok, good)
 		}
-	}
+	})
 	if len(errs) > 0 {
 		sort.Float64s(errs)
 		s.medianErr = errs[len(errs)/2]

@@ -78,10 +78,13 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 		return nil, nil, err
 	}
 	vcfg := o.vision
+	var cal *calib.File
+	var floor floorPoints
 	if o.calib != "" {
-		if vcfg, err = floorROI(vcfg, o.calib); err != nil {
+		if cal, floor.m, err = loadMapper(o.calib); err != nil {
 			return nil, nil, err
 		}
+		vcfg = floorROI(vcfg, cal, floor)
 	}
 	if mode == followLane {
 		if o.cnn || o.cnnCheck > 0 {
@@ -91,10 +94,8 @@ func (o *replayOptions) newDetector() (*pipeline.Fused, func(), error) {
 		if o.site != nil {
 			lc.WidthMM, lc.WidthPx = float64(o.site.Lane.WidthMM), o.site.Lane.WidthPx
 		}
-		if o.calib != "" {
-			if lc.Floor, err = loadFloorPlane(o.calib); err != nil {
-				return nil, nil, err
-			}
+		if cal != nil {
+			lc.Floor = floor
 		}
 		ln, err := vision.NewLane(vcfg, lc)
 		if err != nil {
@@ -158,18 +159,10 @@ func followMode(s string) (string, error) {
 // where the calibrated floor ends (vision.FloorTop: the horizon, or the
 // floor beyond vision.FloorRangeMM), so that walls, racks and windows above
 // it are never searched. A region set lower by the site stays as it is.
-func floorROI(cfg vision.Config, path string) (vision.Config, error) {
-	f, err := calib.Load(path)
-	if err != nil {
-		return cfg, err
-	}
-	m, err := calib.NewMapper(f)
-	if err != nil {
-		return cfg, fmt.Errorf("%s: %w", path, err)
-	}
-	top := vision.FloorTop(floorPoints{m}, f.ImageSize[0], f.ImageSize[1])
+func floorROI(cfg vision.Config, f *calib.File, floor floorPoints) vision.Config {
+	top := vision.FloorTop(floor, f.ImageSize[0], f.ImageSize[1])
 	cfg.ROI.Top = math.Max(cfg.ROI.Top, math.Min(top, cfg.ROI.Bottom-0.1))
-	return cfg, nil
+	return cfg
 }
 
 // floorPoints adapts calib.Mapper to vision.FloorMap and
@@ -186,18 +179,18 @@ func (f floorPoints) ToImageMM(forward, right float64) (float64, float64, bool) 
 	return p.X, p.Y, ok
 }
 
-// loadFloorPlane is the calibration file at path as the lane detector's
-// floor.
-func loadFloorPlane(path string) (vision.FloorPlane, error) {
+// loadMapper loads the calibration file at path and its image-floor
+// mapping.
+func loadMapper(path string) (*calib.File, *calib.Mapper, error) {
 	f, err := calib.Load(path)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	m, err := calib.NewMapper(f)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
+		return nil, nil, fmt.Errorf("%s: %w", path, err)
 	}
-	return floorPoints{m}, nil
+	return f, m, nil
 }
 
 func (o *replayOptions) trackerConfig() (guidance.Config, error) {
@@ -426,15 +419,11 @@ type floorMapper struct {
 
 // loadFloor loads a calibration file and checks it against the frame size.
 func loadFloor(path string, w, h int) (*floorMapper, error) {
-	f, err := calib.Load(path)
+	f, m, err := loadMapper(path)
 	if err != nil {
 		return nil, err
 	}
 	if err := f.CheckFrameSize(w, h); err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
-	}
-	m, err := calib.NewMapper(f)
-	if err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)
 	}
 	return &floorMapper{m: m}, nil

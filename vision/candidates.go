@@ -17,6 +17,9 @@ type candidate struct {
 	gated    bool    // within the tracker's prediction gate
 	taken    bool    // supports the line already found
 	rank     float64 // ordering within the band, strongest first
+	// tol and wpart cache tolerance and weight's band-independent part
+	// for the fit's inner loops (Classical.primeScores).
+	tol, wpart float64
 }
 
 // bandLayout is the row bands of the region of interest.
@@ -160,12 +163,12 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	// into a profile the same ridge filter reads: the band's luminance
 	// level times (1 + chromaGain·distance), so that its Weber contrast is
 	// chromaGain·distance whatever the light.
-	base := c.medianStrided(p, 2)
+	base := c.medianStrided(p, 2, &c.medBase)
 	for i := range q1 {
 		q1[i] *= inv
 		q2[i] *= inv
 	}
-	b1, b2 := c.medianStrided(q1, 2), c.medianStrided(q2, 2)
+	b1, b2 := c.medianStrided(q1, 2, &c.medC1), c.medianStrided(q2, 2, &c.medC2)
 	pLo, pHi := math.Inf(1), math.Inf(-1)
 	for i := range p {
 		v := base * (1 + chromaGain*math.Hypot(q1[i]-b1, q2[i]-b2))
@@ -280,14 +283,14 @@ func (c *Classical) prefixSums(p []float64) {
 }
 
 // medianStrided is the median of every stride-th value of v (scratch
-// memory in c.scratch; v is not changed).
-func (c *Classical) medianStrided(v []float64, stride int) float64 {
+// memory in c.scratch; v is not changed), with guess g (see nearMedian).
+func (c *Classical) medianStrided(v []float64, stride int, g *nearMedian) float64 {
 	s := c.scratch[:0]
 	for i := 0; i < len(v); i += stride {
 		s = append(s, v[i])
 	}
 	c.scratch = s
-	return quickMedian(s)
+	return g.median(s)
 }
 
 // profileNoise estimates the noise of one band profile from the median
@@ -301,16 +304,81 @@ func (c *Classical) profileNoise(p []float64) float64 {
 	if len(s) == 0 {
 		return 1
 	}
-	return math.Max(1.4826*quickMedian(s)/math.Sqrt2, 0.05)
+	return math.Max(1.4826*c.medNoise.median(s)/math.Sqrt2, 0.05)
 }
 
-// quickMedian returns the median (the upper one for an even count) of s,
-// reordering s (Hoare's selection).
-func quickMedian(s []float64) float64 {
+// nearMedian finds the medians of a series of similar samples, such as
+// the profiles of neighbouring bands, faster than selecting each from
+// scratch: one pass counts the values below a window around the last
+// median and collects those inside it; when the median's rank falls
+// among them it is selected from those few, otherwise from the whole
+// sample. Either way the result is the sample's exact median (as
+// quickMedian's), so the guess changes the cost, never the result. The
+// window widens after a miss and narrows while it holds more than a
+// quarter of the sample.
+type nearMedian struct {
+	v, d float64 // last median and the window's half-width
+	ok   bool    // v and d hold a guess
+	buf  []float64
+}
+
+// forget drops the guess (a new frame).
+func (g *nearMedian) forget() { g.ok = false }
+
+// median returns the median of s (the upper one for an even count),
+// reordering s when the guess misses.
+func (g *nearMedian) median(s []float64) float64 {
 	if len(s) == 0 {
 		return 0
 	}
 	k := len(s) / 2
+	if g.ok {
+		lo, hi := g.v-g.d, g.v+g.d
+		below := 0
+		buf := g.buf[:0]
+		for _, v := range s {
+			b := 0
+			if v < lo {
+				b = 1
+			}
+			below += b
+			if v >= lo && v <= hi {
+				buf = append(buf, v)
+			}
+		}
+		g.buf = buf
+		if k >= below && k < below+len(buf) {
+			m := quickSelect(buf, k-below)
+			if 4*len(buf) > len(s) {
+				g.d *= 0.5
+			}
+			g.d = math.Max(g.d, 2*math.Abs(m-g.v))
+			g.v = m
+			return m
+		}
+	}
+	m := quickSelect(s, k)
+	if g.ok {
+		g.d = math.Max(2*g.d, 2*math.Abs(m-g.v))
+	} else {
+		g.d = 0.05*math.Abs(m) + 1e-9
+	}
+	g.v, g.ok = m, true
+	return m
+}
+
+// quickMedian returns the median (the upper one for an even count) of s,
+// reordering s.
+func quickMedian(s []float64) float64 {
+	if len(s) == 0 {
+		return 0
+	}
+	return quickSelect(s, len(s)/2)
+}
+
+// quickSelect returns the k-th smallest value of s (from 0), reordering s
+// (Hoare's selection).
+func quickSelect(s []float64, k int) float64 {
 	lo, hi := 0, len(s)-1
 	for lo < hi {
 		piv := s[(lo+hi)/2]

@@ -66,38 +66,41 @@ const (
 //
 // A Classical is not safe for concurrent use; use one per goroutine.
 type Classical struct {
-	cfg        Config
-	tape       BGR
-	hasTape    bool
-	tapeUnit   [3]float64
-	work       gocv.Mat // downscaled input, same type as the input
-	workSize   image.Point
-	workType   gocv.MatType
-	haveWork   bool
-	evidence   []float32 // working-size evidence image, row-major
-	grey       []uint8   // working-size luminance, for saturation tests
-	cr1, cr2   []float32 // working-size chromaticity (R−G, (R+G)/2−B over luminance)
-	chromaOn   bool      // this frame has chromaticity (colour input, no tape colour set)
-	pc1, pc2   []float64 // band profiles of cr1, cr2
-	scratch    []float64 // for medians
-	chans      []selector
-	perBand    []float64 // per-band support of the chosen and the second line
-	runs       [][2]int  // stretches of a chroma profile above the contrast threshold
-	profile    []float64
-	gmax       []float64
-	prefix     []float64
-	prefix2    []float64
-	cands      []candidate
-	bandCands  []candidate
-	byBand     [][2]int
-	widths     []int
-	satPrefix  []uint16 // per band, running count of clipped columns (recordSaturation)
-	voidPrefix []uint16 // per band, running count of columns outside the picture
-	fit        fitter
-	rng        uint64
-	hairline   float64      // width at which a candidate counts half, working px
-	mirror     mirrorMotion // the last frame, to tell mirrored lamps by motion
-	closed     bool
+	cfg      Config
+	tape     BGR
+	hasTape  bool
+	tapeUnit [3]float64
+	work     gocv.Mat // downscaled input, same type as the input
+	workSize image.Point
+	workType gocv.MatType
+	haveWork bool
+	evidence []float32 // working-size evidence image, row-major
+	grey     []uint8   // working-size luminance, for saturation tests
+	cr1, cr2 []float32 // working-size chromaticity (R−G, (R+G)/2−B over luminance)
+	chromaOn bool      // this frame has chromaticity (colour input, no tape colour set)
+	pc1, pc2 []float64 // band profiles of cr1, cr2
+	scratch  []float64 // for medians
+	// medians of the bands' floor level and colour and of the chroma
+	// profile's steps, each guessed from the band below (nearMedian)
+	medBase, medC1, medC2, medNoise nearMedian
+	chans                           []selector
+	perBand                         []float64 // per-band support of the chosen and the second line
+	runs                            [][2]int  // stretches of a chroma profile above the contrast threshold
+	profile                         []float64
+	gmax                            []float64
+	prefix                          []float64
+	prefix2                         []float64
+	cands                           []candidate
+	bandCands                       []candidate
+	byBand                          [][2]int
+	widths                          []int
+	satPrefix                       []uint16 // per band, running count of clipped columns (recordSaturation)
+	voidPrefix                      []uint16 // per band, running count of columns outside the picture
+	fit                             fitter
+	rng                             uint64
+	hairline                        float64      // width at which a candidate counts half, working px
+	mirror                          mirrorMotion // the last frame, to tell mirrored lamps by motion
+	closed                          bool
 }
 
 // NewClassical returns a detector for cfg, or the error from cfg.Validate.

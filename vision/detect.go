@@ -115,6 +115,7 @@ func (c *Classical) totalScore(q curve, l bandLayout, ww int, byBand [][2]int, c
 		c.fit.best, c.fit.trial = make([]int, l.n), make([]int, l.n)
 	}
 	out := c.fit.trial[:l.n]
+	c.primeScores(ww)
 	t := 0.0
 	for _, sel := range chans {
 		sel.gatedOnly = gatedOnly
@@ -338,6 +339,9 @@ func (c *Classical) extract(fr frameGeom) (l bandLayout, byBand [][2]int, wantLi
 		return l, nil, false, false, "region of interest too small for this frame"
 	}
 	sigma := c.noiseSigma(l, fr.ww)
+	for _, g := range [...]*nearMedian{&c.medBase, &c.medC1, &c.medC2, &c.medNoise} {
+		g.forget()
+	}
 	c.hairline = 0.006 * float64(fr.ww)
 	c.widths = c.ridgeWidths(fr, l, c.widths)
 	wantLight = c.cfg.Polarity != PolarityDark || c.hasTape

@@ -257,6 +257,11 @@ type fitter struct {
 	best, trial []int
 	res         [9]fitResult // up to three channels × (full, gated, second)
 	idx         []int
+	// bandTable's cache
+	tabT, tabF      []float64
+	tabL            bandLayout
+	tabY0, tabScale float64
+	tabOK           bool
 }
 
 // selector picks the candidates one fit may use.
@@ -305,25 +310,69 @@ func tolerance(cd *candidate, ww int) float64 {
 // grout line a pixel or two wide counts about a third of a stripe
 // (w/(w + 0.6 % of the working width)).
 func (c *Classical) weight(cd *candidate, l bandLayout) float64 {
+	return c.weightPart(cd) * bandFactor(cd.band, l)
+}
+
+// weightPart is weight without the factor for the band's place.
+func (c *Classical) weightPart(cd *candidate) float64 {
 	w := math.Min(cd.snr, 20) / 20
 	w *= cd.w / (cd.w + c.hairline)
 	if cd.sat {
 		w *= 0.3
 	}
-	return w * (1 - 0.4*float64(cd.band)/float64(max(l.n, 1)))
+	return w
+}
+
+// bandFactor is weight's factor for band k's place in layout l.
+func bandFactor(k int, l bandLayout) float64 {
+	return 1 - 0.4*float64(k)/float64(max(l.n, 1))
+}
+
+// primeScores fills every candidate's tol and wpart (tolerance and
+// weightPart, for working width ww), which the inner loops of the fit
+// read instead of recomputing them for every hypothesis. Called before
+// each fit and scoring pass over c.cands, so that candidates added or
+// changed since (tests build their own) are never scored stale.
+func (c *Classical) primeScores(ww int) {
+	for i := range c.cands {
+		cd := &c.cands[i]
+		cd.tol, cd.wpart = tolerance(cd, ww), c.weightPart(cd)
+	}
+}
+
+// bandTable returns, for layout l and a curve's y0 and scale, each band's
+// curve parameter t = (centre − y0)/scale and weight factor (bandFactor),
+// as curve.x and weight compute them; kept in the fitter while l, y0 and
+// scale stay the same (all hypotheses of one fit share them).
+func (f *fitter) bandTable(l bandLayout, y0, scale float64) (ts, fs []float64) {
+	if !f.tabOK || f.tabL != l || f.tabY0 != y0 || f.tabScale != scale {
+		f.tabT, f.tabF = f.tabT[:0], f.tabF[:0]
+		for k := 0; k < l.n; k++ {
+			f.tabT = append(f.tabT, (l.centre(k)-y0)/scale)
+			f.tabF = append(f.tabF, bandFactor(k, l))
+		}
+		f.tabOK, f.tabL, f.tabY0, f.tabScale = true, l, y0, scale
+	}
+	return f.tabT[:l.n], f.tabF[:l.n]
 }
 
 // evaluate scores curve q against the candidates of one polarity: per
 // band the closest candidate within tolerance supports it.
+//
+// It reads the candidates' cached tol and wpart (primeScores must have
+// run since c.cands last changed) and computes what curve.x, tolerance
+// and weight would, in the same order, so the score is the same to the
+// bit.
 func (c *Classical) evaluate(q curve, l bandLayout, ww int, byBand [][2]int, sel selector, out []int) (score float64, count int) {
+	ts, fs := c.fit.bandTable(l, q.y0, q.scale)
 	for k := 0; k < l.n; k++ {
 		out[k] = -1
 		lo, hi := byBand[k][0], byBand[k][1]
 		if lo == hi {
 			continue
 		}
-		y := l.centre(k)
-		xq := q.x(y)
+		t := ts[k]
+		xq := q.a + q.b*t + q.c*t*t
 		bestD, bestI := math.Inf(1), -1
 		for i := lo; i < hi; i++ {
 			cd := &c.cands[i]
@@ -331,14 +380,14 @@ func (c *Classical) evaluate(q curve, l bandLayout, ww int, byBand [][2]int, sel
 				continue
 			}
 			d := math.Abs(cd.x - xq)
-			if d <= tolerance(cd, ww) && d < bestD {
+			if d <= cd.tol && d < bestD {
 				bestD, bestI = d, i
 			}
 		}
 		if bestI >= 0 {
 			cd := &c.cands[bestI]
-			r := bestD / tolerance(cd, ww)
-			score += c.weight(cd, l) * (1 - 0.5*r*r)
+			r := bestD / cd.tol
+			score += cd.wpart * fs[k] * (1 - 0.5*r*r)
 			out[k] = bestI
 			count++
 		}
@@ -363,6 +412,7 @@ func (c *Classical) ransac(l bandLayout, ww int, byBand [][2]int, sel selector, 
 	res := &f.res[slot]
 	*res = fitResult{bands: res.bands[:0]}
 	f.idx = f.idx[:0]
+	c.primeScores(ww)
 	for i := range c.cands {
 		if sel.sample(&c.cands[i]) {
 			f.idx = append(f.idx, i)

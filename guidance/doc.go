@@ -17,6 +17,14 @@
 // prediction. StepConfirmFrames rejected measurements in a row that agree
 // with each other mean the line really moved, and the track jumps to them.
 //
+// Three copies of the filters run side by side with the process noise
+// scaled ×1, ×4 and ×16 (models.go); the one whose recent measurements are
+// most likely is in use, so the gate widens during a manoeuvre and narrows
+// again on a smooth run. While the track coasts, a line is taken back when
+// the smooth-running model's gate passes it, or the model in use's
+// prediction does at no more than the width of the gate that took the last
+// measurement: coasting never widens the gate.
+//
 // SteadyStateGains exposes the filter's converged gains as an alpha-beta
 // pair, which the tests compare with Kalata's tracking-index relation.
 //

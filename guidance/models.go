@@ -120,15 +120,30 @@ func (b *modelBank) clear() {
 
 // gateNIS is the innovation test statistic of m for a locked track. While
 // Holding it uses the model in use, so a manoeuvre that the measurements
-// have shown widens the gate. While Coasting (the previous frame brought
-// nothing usable) it uses the smooth-running model: the wide prediction
-// of a high-noise model after several lost frames would let almost any
-// line back in, and a line that really moved is taken up by the step
-// candidate (StepConfirmFrames agreeing measurements) instead.
+// have shown widens the gate.
+//
+// While Coasting (the latest frames brought nothing usable) a line is
+// taken back when it passes either of two tests. The first is the
+// smooth-running model's gate. The second is the model in use's
+// prediction, which keeps following a manoeuvre that the smooth model
+// lags behind (a weave's reversal, a tight bend), but judged with no more
+// than the innovation variances of the gate that took the last measurement
+// (heldS): coasting never widens the gate beyond what Holding last
+// accepted. The wide prediction of a high-noise model after several lost
+// frames would otherwise let almost any line back in; a line that really
+// moved is taken up by the step candidate (StepConfirmFrames agreeing
+// measurements) instead.
 func (t *Tracker) gateNIS(m Measurement) float64 {
 	md := t.bank.use()
-	if t.state == Coasting {
-		md = t.bank.smooth()
+	if t.state != Coasting {
+		return nis(&md.off, &md.head, m)
 	}
-	return nis(&md.off, &md.head, m)
+	d2 := nis(&t.bank.smooth().off, &t.bank.smooth().head, m)
+	if md == t.bank.smooth() || t.heldS[0] <= 0 || t.heldS[1] <= 0 {
+		return d2
+	}
+	no, so := md.off.Innovation(m.OffsetPx)
+	nh, sh := md.head.Innovation(m.HeadingDeg)
+	so, sh = math.Min(so, t.heldS[0]), math.Min(sh, t.heldS[1])
+	return math.Min(d2, no*no/so+nh*nh/sh)
 }

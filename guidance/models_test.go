@@ -147,3 +147,54 @@ func TestGateTightensAgainAfterAManoeuvre(t *testing.T) {
 		t.Errorf("after 3 s of smooth running a jump of %.1f px was accepted: %+v", jump, e)
 	}
 }
+
+func TestBlinkDuringAManoeuvreIsBridged(t *testing.T) {
+	// The hard weave with the detector blinking (one frame with nothing)
+	// at every reversal, where the stripe's image accelerates hardest. The
+	// smooth-running model lags there by tens of pixels; the frame after
+	// the blink must still be taken, on the prediction of the model in use.
+	s := hardWeave(11)
+	for k := 0; k < 13; k++ {
+		at := time.Duration((0.375 + 0.75*float64(k)) * float64(time.Second))
+		s.Missing = append(s.Missing, guidancetest.Span{From: at, To: at + 20*time.Millisecond})
+	}
+	tr := newTracker(t, guidance.DefaultConfig())
+	gated, afterBlink, n := 0, 0, 0
+	prevMissing := false
+	for _, f := range s.Frames() {
+		e := tr.Update(f.T, f.M)
+		if f.T >= time.Second {
+			n++
+			if e.Gated {
+				gated++
+				if prevMissing {
+					afterBlink++
+				}
+			}
+			if !e.Tracking {
+				t.Fatalf("t=%v: not tracking (%s)", f.T, e.State)
+			}
+		}
+		prevMissing = !f.M.Valid
+	}
+	if afterBlink > 0 || gated > n/50 {
+		t.Errorf("refused %d measurements of %d (%d right after a blink), want none after a blink and ≤ 2 %%", gated, n, afterBlink)
+	}
+	t.Logf("refused %d of %d, %d right after a blink", gated, n, afterBlink)
+}
+
+func TestBlinkInCalmRunningKeepsTheNarrowGate(t *testing.T) {
+	// After a smooth run, one blank frame and then a measurement 3.5 calm
+	// sigmas beside the line (a tyre mark): refused, as while holding.
+	for _, sign := range []float64{1, -1} {
+		tr := newTracker(t, guidance.DefaultConfig())
+		now := lockOn(t, tr, 40, 0, 3*time.Second)
+		_, _, sig, _, _ := tr.Predict(now)
+		now += 33 * ms
+		tr.Update(now, guidance.Measurement{})
+		now += 33 * ms
+		if e := tr.Update(now, good(40+sign*3.5*sig, 0)); !e.Gated {
+			t.Errorf("a jump of %+.1f px after a blink in calm running was taken: %+v", sign*3.5*sig, e)
+		}
+	}
+}

@@ -106,6 +106,7 @@ type Tracker struct {
 	reach   reachTrack    // how far the accepted lines reached (reach.go)
 	filterT time.Duration // time the filter state refers to
 	updateT time.Duration // time of the bank's latest update
+	heldS   [2]float64    // innovation variances (offset, heading) of the gate that took the latest measurement while locked; 0: none
 
 	// Acquisition run (Seeking, Regaining): measurements agreeing with
 	// each other, with no gap longer than MaxFrameGap.
@@ -340,6 +341,7 @@ func (t *Tracker) lossReason(now time.Duration) string {
 
 func (t *Tracker) toLost(reason string) {
 	t.reach.reset()
+	t.heldS = [2]float64{}
 	t.state = Lost
 	t.lostReason = reason
 	t.runActive = false
@@ -387,6 +389,10 @@ func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 	}
 	d2 := t.gateNIS(m)
 	if d2 <= t.gate {
+		md := t.bank.use()
+		_, so := md.off.Innovation(m.OffsetPx)
+		_, sh := md.head.Innovation(m.HeadingDeg)
+		t.heldS = [2]float64{so, sh}
 		t.accept(now, m)
 		t.cand.active = false
 		return
@@ -425,6 +431,7 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		t.reach.reset()
 		t.reach.add(now, m)
 		t.bank.adopt(c.off, c.head)
+		t.heldS = [2]float64{}
 		t.filterT, t.updateT = now, now
 		c.active = false
 		t.lastGated = false
@@ -495,6 +502,7 @@ func (t *Tracker) startRun(now time.Duration, m Measurement) {
 
 func (t *Tracker) lock(now time.Duration, m Measurement) {
 	t.reach.reset()
+	t.heldS = [2]float64{}
 	t.reach.add(now, m)
 	t.state = Holding
 	t.consec = holdAfter

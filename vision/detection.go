@@ -48,6 +48,14 @@ type LaneMeasure struct {
 	// BothSeen is false when the centre was inferred from one boundary
 	// and the learned width.
 	BothSeen bool
+	// ReachPx is how far, in image rows, the lane is seen continuously
+	// from its near end beyond RefRow (positive, counted up to the far
+	// end of the near half of the region at most) or short of it
+	// (negative), for guidance.Measurement.ReachPx: from the boundaries'
+	// support, not their fitted curves, which run on across a worn gap.
+	// Negative as well when the nearest support lies well beyond RefRow
+	// (the near part of the lines is not there).
+	ReachPx float64
 }
 
 // Hint is what the tracker expects the stripe to look like in this frame.

@@ -274,9 +274,99 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 		d.Confidence *= ln.lc.OneSideFactor
 		d.Reason = "one boundary: centre from the learned lane width"
 	}
+	m.ReachPx = ln.reach(l, left, right, yRefW) / fr.sy
 	d.Lane = m
 	ln.remember(fr, l, &d, left, right, yRefW)
 	return d
+}
+
+// reach is how far, in working rows, the lane is seen continuously from
+// its near end beyond the reference row yRefW (LaneMeasure.ReachPx).
+// Bands count as seen where either boundary has support, or where a
+// boundary runs through a band it could not be seen in (glare, off the
+// frame's side: missing evidence, not a gap). Going up from the near end
+// the stretch ends at the first run of bands without either that is
+// longer than 5 % of the ROI height (a gap of its own, as in dashed), or
+// for a boundary marked with a pattern (two gaps of its own or more:
+// dashes) longer than half the span it is measured over, and at the far
+// end of the near half of the ROI at most: the guidance is taken near
+// the vehicle, and far off both faint lines drop out together now and
+// then, which would make the reach jump about (the tracker reads a
+// falling reach as a line ending). A lane whose nearest support lies
+// beyond the reference row, by more than a tenth of the ROI height (how
+// far the stripe detector runs a solid line's offset out, reachWithin),
+// is not seen there at all: the near part of both lines worn away, the
+// lines seen only past the gap. The reach is then negative, the rows
+// from the reference row to that near end, as for a line that ends short
+// of it. The fitted boundaries run on across such a gap; extrapolating
+// across it is not seeing it.
+func (ln *Lane) reach(l bandLayout, a, b *fitResult, yRefW float64) float64 {
+	maxGap := max(2, int(0.05*float64(l.n)))
+	for _, r := range []*fitResult{a, b} {
+		if r != nil && ownGaps(r, l) >= 2 {
+			maxGap = max(maxGap, int(0.5*(r.yHi-r.yLo)/float64(l.step)))
+		}
+	}
+	supported := func(r *fitResult, k int) bool { return r != nil && k < len(r.bands) && r.bands[k] >= 0 }
+	hidden := func(r *fitResult, k int) bool {
+		if r == nil {
+			return false
+		}
+		y := l.centre(k)
+		return ln.c.unobservable(l, k, r.centre.x(y), r.width.x(y))
+	}
+	near, far, run := -1, -1, 0
+	for k := 0; 2*k < l.n || near < 0 && k < l.n; k++ {
+		switch {
+		case supported(a, k) || supported(b, k):
+			if near < 0 {
+				near = k
+			}
+			far, run = k, 0
+		case hidden(a, k) || hidden(b, k):
+			if near < 0 {
+				near = k // hidden at the near end: the lane may run there
+			}
+			// no gap, no support
+		case near >= 0:
+			run++
+		}
+		if run > maxGap {
+			break
+		}
+	}
+	if far < 0 {
+		return float64(l.y0) - yRefW // nothing seen: short by the whole ROI
+	}
+	st := float64(l.step)
+	if yNear := l.centre(near) + st/2; yNear < yRefW-0.1*float64(l.y1-l.y0) {
+		return yNear - yRefW
+	}
+	return yRefW - (l.centre(far) - st/2)
+}
+
+// ownGaps counts r's gaps of its own: stretches at least 5 % of the ROI
+// height long (as in dashed) between marks of three supporting bands or
+// more (a stray supporting candidate in a gap does not split it). One is
+// a worn stretch; a dashed line shows two or more.
+func ownGaps(r *fitResult, l bandLayout) int {
+	const minMark = 3
+	n, lastEnd, run := 0, -1, 0
+	for k := 0; k <= len(r.bands); k++ {
+		if k < len(r.bands) && r.bands[k] >= 0 {
+			run++
+			continue
+		}
+		if run >= minMark {
+			start := k - run
+			if lastEnd >= 0 && float64((start-lastEnd-1)*l.step) >= 0.05*float64(l.y1-l.y0) {
+				n++
+			}
+			lastEnd = k - 1
+		}
+		run = 0
+	}
+	return n
 }
 
 // nearCover is the share of the near half's bands (the lower half of the

@@ -93,7 +93,11 @@ func scoreTracked(t *testing.T, sc synth.Scenario, frames, step int, det detecto
 			h = Hint{Valid: true, OffsetPx: off, HeadingDeg: head, OffsetSigma: so, HeadingSigma: sh}
 		}
 		d := det.Detect(img, h)
-		est := tr.Update(fi.T, guidance.Measurement{Valid: d.Found, OffsetPx: d.OffsetPx, HeadingDeg: d.HeadingDeg, Confidence: d.Confidence})
+		m := guidance.Measurement{Valid: d.Found, OffsetPx: d.OffsetPx, HeadingDeg: d.HeadingDeg, Confidence: d.Confidence}
+		if d.Found && d.Lane != nil {
+			m.ReachPx, m.HasReach = d.Lane.ReachPx, true // as the pipeline passes it
+		}
+		est := tr.Update(fi.T, m)
 		if d.Found && d.Lane != nil {
 			if d.Lane.BothSeen {
 				s.twoSide++
@@ -176,6 +180,90 @@ func TestLaneScenes(t *testing.T) {
 				t.Errorf("no frame without the lane in the window")
 			}
 		})
+	}
+}
+
+// TestLaneReachAcrossGap: both lines of lane-reflections are worn away
+// from 7 to 8.5 m. The fitted boundaries run on across the gap, but the
+// reach the lane detector reports comes from the lines' support: where
+// the truth (the scene's geometry) has the lane's nearest stretch end
+// well short of the reference row, or start well beyond it, the reach is
+// negative (not seen at the reference row); where the lane is laid over
+// the whole near half, it is positive.
+func TestLaneReachAcrossGap(t *testing.T) {
+	sc := lookup(t, "lane-reflections")
+	sc.Motion.StartM = 6
+	sc.Frames = 120
+	r, err := synth.New(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	det, err := NewLane(DefaultConfig(), DefaultLaneConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer det.Close()
+	tr, err := guidance.NewTracker(guidance.DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	img := gocv.NewMat()
+	defer img.Close()
+	H := float64(sc.Height)
+	ref := DefaultConfig().RefRow * H
+	var short, long, wrong int
+	for i := 0; ; i++ {
+		fi, err := r.Read(&img)
+		if errors.Is(err, io.EOF) {
+			break
+		} else if err != nil {
+			t.Fatal(err)
+		}
+		var h Hint
+		if off, head, so, sh, ok := tr.Predict(fi.T); ok {
+			h = Hint{Valid: true, OffsetPx: off, HeadingDeg: head, OffsetSigma: so, HeadingSigma: sh}
+		}
+		d := det.Detect(img, h)
+		m := guidance.Measurement{Valid: d.Found, OffsetPx: d.OffsetPx, HeadingDeg: d.HeadingDeg, Confidence: d.Confidence}
+		if d.Found && d.Lane != nil {
+			m.ReachPx, m.HasReach = d.Lane.ReachPx, true
+		}
+		tr.Update(fi.T, m)
+		if !d.Found || d.Lane == nil {
+			continue
+		}
+		// the truth's centre rows (every 2 px where the lane is laid):
+		// the nearest stretch, from the bottom up to its first gap
+		tf := r.Truth()
+		nearEnd, farEnd := math.Inf(-1), math.Inf(1)
+		for _, p := range tf.Points { // bottom first
+			if farEnd < math.Inf(1) && farEnd-p[1] > 4 {
+				break
+			}
+			if nearEnd == math.Inf(-1) {
+				nearEnd = p[1]
+			}
+			farEnd = p[1]
+		}
+		switch {
+		case nearEnd >= H-4 && farEnd <= H/2:
+			long++
+			if d.Lane.ReachPx <= 0 {
+				wrong++
+				t.Errorf("frame %d: lane laid over the near half, reach %.1f rows", i, d.Lane.ReachPx)
+			}
+		case nearEnd < ref-0.15*H || farEnd > ref+0.05*H:
+			short++
+			if d.Lane.ReachPx >= 0 {
+				wrong++
+				t.Errorf("frame %d: lane's near stretch rows %.0f–%.0f (reference row %.0f), reach %.1f rows", i, farEnd, nearEnd, ref, d.Lane.ReachPx)
+			}
+		}
+	}
+	t.Logf("%d frames with the lane over the near half, %d with it short of or beyond the reference row; %d wrong", long, short, wrong)
+	if short < 5 || long < 5 {
+		t.Fatalf("window holds %d frames short, %d long: want both", short, long)
 	}
 }
 

@@ -426,10 +426,16 @@ func (c *trackerClock) tick(period time.Duration) (Result, bool) {
 
 // reach is how far the detected line extends beyond the reference row
 // toward the far end (image rows, negative when it ends short of the row),
-// for guidance.Measurement.ReachPx. ok is false without a line.
+// for guidance.Measurement.ReachPx (in lane mode the lane detector's
+// LaneMeasure.ReachPx). ok is false without a line.
 func reach(d vision.Detection) (rows float64, ok bool) {
 	if !d.Found || len(d.Points) == 0 {
 		return 0, false
+	}
+	if d.Lane != nil {
+		// the lane's centre is fitted across gaps in both lines: the
+		// lane detector measures the reach from the lines' support
+		return d.Lane.ReachPx, true
 	}
 	top := d.Points[0].Y
 	for _, p := range d.Points[1:] {

@@ -53,3 +53,29 @@ func TestPredictorMovesTheLastLineWithTheFilter(t *testing.T) {
 		t.Errorf("a sink's change reached the predictor: %v", b[0])
 	}
 }
+
+// TestReach: the reach passed to the tracker is the rows from the
+// reference row to the line's far end in stripe mode, and in lane mode
+// the lane detector's own (from the lines' support: a centre fitted
+// across a worn gap in both lines reaches far, the lines do not).
+func TestReach(t *testing.T) {
+	pts := []vision.Point{{X: 160, Y: 239}, {X: 160, Y: 150}, {X: 160, Y: 40}}
+	for _, tc := range []struct {
+		name   string
+		d      vision.Detection
+		want   float64
+		wantOK bool
+	}{
+		{name: "nothing found", d: vision.Detection{}, wantOK: false},
+		{name: "stripe", d: vision.Detection{Found: true, RefRow: 192, Points: pts}, want: 152, wantOK: true},
+		{name: "lane seen past a gap", d: vision.Detection{Found: true, RefRow: 192, Points: pts, Lane: &vision.LaneMeasure{ReachPx: -30}}, want: -30, wantOK: true},
+		{name: "lane", d: vision.Detection{Found: true, RefRow: 192, Points: pts, Lane: &vision.LaneMeasure{ReachPx: 70}}, want: 70, wantOK: true},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			got, ok := reach(tc.d)
+			if ok != tc.wantOK || (ok && got != tc.want) {
+				t.Errorf("reach = %v, %v; want %v, %v", got, ok, tc.want, tc.wantOK)
+			}
+		})
+	}
+}

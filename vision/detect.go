@@ -158,26 +158,37 @@ const bridgeFactor = 0.75
 //     missing stretch of the marking, or a line that resumes after one,
 //     is longer and is not bridged (the fail-safe must sound there);
 //   - two estimates of the unseen stretch agree within 1.5 % of the
-//     width at the reference row (the scoring tolerance, 10 px at 640):
-//     the straight line through the nearest marks alone (see nearLine;
-//     over at least 15 % of the ROI height, the RANSAC sample spread) and
-//     the perspective curve through every mark (see perspLine: a bend of
-//     constant curvature on the floor). Where they disagree (a bend
-//     beginning beyond the near marks, or a far dash tilting the curve),
-//     the stretch stays unseen. The line is run out along the
-//     perspective curve's tangent at the reference row, which must lie
-//     inside the region of interest;
-//   - with a prediction (hint valid), the run-out agrees with it in
-//     offset and heading at the reference row: the squared distance in
-//     units of the prediction's σ (which holds the measurement noise,
-//     see Hint) is within the χ² 2-DOF 99 % quantile 9.21, the tracker's
+//     width at the reference row (the scoring tolerance, 10 px at 640),
+//     either (a) the straight line through the nearest marks alone (see
+//     nearMarksTop and nearLine; over at least 15 % of the ROI height,
+//     the RANSAC sample spread) and the perspective curve through every
+//     mark (see perspLine: a bend of constant curvature on the floor),
+//     the line run out along that curve's tangent at the reference row;
+//     or (b) two bounds from the perspective curve through the nearest
+//     marks alone: the bend those marks show kept up to the reference
+//     row, and the line straightening where they end (the curve's
+//     tangent at the near end). A path whose bend neither grows nor
+//     turns back over the unseen stretch lies between the two; the line
+//     is run out straight through their middle at the reference row,
+//     with the mean of their slopes there. (b) holds where the bend
+//     changes beyond the near marks (a weaving cart, an S-bend: the far
+//     marks tilt a curve through every mark at the vehicle), (a) where
+//     the near marks are too few or too short to show a bend of their
+//     own (dots); (a) is tried first, then (b). Where neither holds (a
+//     bend seen at the near marks and an unseen stretch too long for it)
+//     the stretch stays unseen. The run-out must lie inside the region
+//     of interest;
+//   - with a prediction (hint valid), the run-out (of (a), else of (b))
+//     agrees with it in offset and heading at the reference row: the
+//     squared distance in units of the prediction's σ (which holds the
+//     measurement noise, see Hint) is within the χ² 2-DOF 99 % quantile 9.21, the tracker's
 //     own gate, so a bridged measurement never steps the track. The
 //     offset and heading measured are the image's, not the prior's.
 //
-// On success r is marked bridged, its line beyond yHi is that tangent,
-// and r.bridgeSpread is the spread of the two estimates and the fitted
-// curve's own tangent at the reference row, in units of the agreement
-// required (report lowers the confidence with it).
+// On success r is marked bridged, its line beyond yHi is the run-out,
+// and r.bridgeSpread is how far apart the estimates land at the
+// reference row (for (a) with the fitted curve's own tangent), in units
+// of the agreement required (report lowers the confidence with it).
 func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint, yRefW float64) bool {
 	marks := 3
 	if hint.Valid {
@@ -190,21 +201,46 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 	if gap <= 0 || r.floorLen(r.yHi+float64(l.step)/2, yRefW) > gap {
 		return false
 	}
-	// Two estimates of the unseen stretch: the nearest marks' straight
-	// line, and the perspective curve through every mark.
-	x0, s0, ok := c.nearLine(r, l, 0.15*float64(l.y1-l.y0))
+	yTop, ok := c.nearMarksTop(r, 0.15*float64(l.y1-l.y0))
 	if !ok {
 		return false
 	}
-	xp, sp, ok := c.perspLine(r, l, yRefW)
 	tol := 0.015 * float64(fr.ww)
-	xn, xt := x0+s0*(yRefW-r.yHi), r.xAt(yRefW)
-	if !ok || math.Abs(sp) > maxSlope || math.Abs(xn-xp) > tol || xp < float64(l.x0) || xp > float64(l.x1) {
+	// (a) Every mark on one bend, the nearest marks' straight line
+	// agreeing.
+	if x0, s0, ok := c.nearLine(r, l, yTop); ok {
+		if pc, ok := c.perspLine(r, l, math.Inf(-1)); ok {
+			xa, sa := pc.x(yRefW), pc.slope(yRefW)
+			xn, xt := x0+s0*(yRefW-r.yHi), r.xAt(yRefW)
+			spread := (math.Max(xn, math.Max(xa, xt)) - math.Min(xn, math.Min(xa, xt))) / tol
+			if math.Abs(xn-xa) <= tol && c.runOut(r, l, fr, hint, yRefW, xa, sa, spread) {
+				return true
+			}
+		}
+	}
+	// (b) The two bounds from the nearest marks' own bend: kept up to
+	// the reference row, or ending where the marks end.
+	if pc, ok := c.perspLine(r, l, yTop); ok {
+		xb, sb := pc.x(yRefW), pc.slope(yRefW)
+		st := pc.slope(r.yHi)
+		xs := pc.x(r.yHi) + st*(yRefW-r.yHi)
+		if math.Abs(st) <= maxSlope && math.Abs(xb-xs) <= tol && c.runOut(r, l, fr, hint, yRefW, (xb+xs)/2, (sb+st)/2, math.Abs(xb-xs)/tol) {
+			return true
+		}
+	}
+	return false
+}
+
+// runOut bridges r (see bridges) with the run-out through x at row yRefW
+// with slope s, when that lies inside the region of interest and, with a
+// prediction, agrees with it; spread is r.bridgeSpread.
+func (c *Classical) runOut(r *fitResult, l bandLayout, fr frameGeom, hint Hint, yRefW, x, s, spread float64) bool {
+	if math.Abs(s) > maxSlope || x < float64(l.x0) || x > float64(l.x1) {
 		return false
 	}
 	if hint.Valid {
-		off := fr.toInX(xp) - fr.inW/2
-		head := math.Atan(-sp*fr.sy/fr.sx) * 180 / math.Pi
+		off := fr.toInX(x) - fr.inW/2
+		head := math.Atan(-s*fr.sy/fr.sx) * 180 / math.Pi
 		so := math.Max(hint.OffsetSigma, 0.5)
 		sh := math.Max(hint.HeadingSigma, 0.1)
 		do, dh := (off-hint.OffsetPx)/so, (head-hint.HeadingDeg)/sh
@@ -212,8 +248,8 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 			return false
 		}
 	}
-	r.bridged, r.nearX, r.nearSlope = true, xp-sp*(yRefW-r.yHi), sp
-	r.bridgeSpread = (math.Max(xn, math.Max(xp, xt)) - math.Min(xn, math.Min(xp, xt))) / tol
+	r.bridged, r.nearX, r.nearSlope = true, x-s*(yRefW-r.yHi), s
+	r.bridgeSpread = spread
 	return true
 }
 

@@ -72,16 +72,43 @@ func (r *fitResult) observedBands(l bandLayout) float64 {
 }
 
 // nearLine fits a straight line x = x0 + s·(y − yHi), by weighted least
-// squares, to the inliers of the nearest marks of r: from the near end
-// up, mark by mark, until they span at least minRows rows. A dashed
-// line's parabola is fitted across the gaps and its tangent at the near
-// end can be bent by a far dash on a curve; the near marks alone say
-// where the line goes next. ok is false when too few inliers span too
-// few rows.
-func (c *Classical) nearLine(r *fitResult, l bandLayout, minRows float64) (x0, s float64, ok bool) {
+// squares, to the inliers of r at rows yTop and below (the nearest
+// marks, see nearMarksTop). ok is false when they are too few.
+func (c *Classical) nearLine(r *fitResult, l bandLayout, yTop float64) (x0, s float64, ok bool) {
 	var sw, sy, sx, syy, sxy float64
 	n := 0
-	yTop := math.Inf(1)
+	for _, i := range r.bands {
+		if i < 0 || c.cands[i].y < yTop {
+			continue
+		}
+		cd := &c.cands[i]
+		wt := c.weight(cd, l)
+		y := cd.y - r.yHi
+		sw += wt
+		sy += wt * y
+		sx += wt * cd.x
+		syy += wt * y * y
+		sxy += wt * y * cd.x
+		n++
+	}
+	det := sw*syy - sy*sy
+	if n < 3 || det <= 1e-9*sw*sw {
+		return 0, 0, false
+	}
+	s = (sw*sxy - sy*sx) / det
+	x0 = (sx - s*sy) / sw
+	return x0, s, true
+}
+
+// nearMarksTop is the far end of the nearest marks of r: from the near
+// end up, mark by mark, until they span at least minRows rows. A dashed
+// line's parabola is fitted across the gaps and its tangent at the near
+// end can be bent by a far dash on a curve; the near marks alone say
+// where the line goes next. ok is false when fewer than three inliers
+// span fewer rows.
+func (c *Classical) nearMarksTop(r *fitResult, minRows float64) (yTop float64, ok bool) {
+	n := 0
+	yTop = math.Inf(1)
 	gapped := false
 	for _, i := range r.bands {
 		if i < 0 {
@@ -90,28 +117,14 @@ func (c *Classical) nearLine(r *fitResult, l bandLayout, minRows float64) (x0, s
 			}
 			continue
 		}
-		cd := &c.cands[i]
 		if gapped && r.yHi-yTop >= minRows {
 			break // a mark ended and the marks so far span enough rows
 		}
 		gapped = false
-		wt := c.weight(cd, l)
-		y := cd.y - r.yHi
-		sw += wt
-		sy += wt * y
-		sx += wt * cd.x
-		syy += wt * y * y
-		sxy += wt * y * cd.x
-		yTop = math.Min(yTop, cd.y)
+		yTop = math.Min(yTop, c.cands[i].y)
 		n++
 	}
-	det := sw*syy - sy*sy
-	if n < 3 || r.yHi-yTop < minRows || det <= 1e-9*sw*sw {
-		return 0, 0, false
-	}
-	s = (sw*sxy - sy*sx) / det
-	x0 = (sx - s*sy) / sw
-	return x0, s, true
+	return yTop, n >= 3 && r.yHi-yTop >= minRows
 }
 
 // xAt is the centreline at row y: the fitted curve over the measured
@@ -149,43 +162,59 @@ func (r *fitResult) dashed(l bandLayout) bool {
 	return float64(longest*l.step) >= 0.05*float64(l.y1-l.y0)
 }
 
-// perspLine fits x = A + B·u + C/u, u = y − yh, by weighted least
-// squares to r's inliers, with the horizon row yh where r's width profile
-// runs out: on a flat floor a path of constant curvature projects
-// exactly to that curve (see TestPerspLine). It returns x and dx/dy
-// at row y; ok is false without a horizon above the inliers.
-func (c *Classical) perspLine(r *fitResult, l bandLayout, y float64) (x, slope float64, ok bool) {
+// perspCurve is x = A + B·u + C/u, u = y − yh: on a flat floor a path
+// of constant curvature seen in perspective, with yh the horizon row
+// (see TestPerspLine).
+type perspCurve struct{ yh, a, b, c float64 }
+
+// x is the curve at row y (below the horizon).
+func (p perspCurve) x(y float64) float64 {
+	u := y - p.yh
+	return p.a + p.b*u/100 + p.c*100/u
+}
+
+// slope is dx/dy at row y.
+func (p perspCurve) slope(y float64) float64 {
+	u := y - p.yh
+	return p.b/100 - p.c*100/(u*u)
+}
+
+// perspLine fits a perspCurve by weighted least squares to r's inliers
+// at rows yTop and below (−Inf: all of them), with the horizon row yh
+// where r's width profile runs out. ok is false without a horizon above
+// the inliers or with fewer than six of them.
+func (c *Classical) perspLine(r *fitResult, l bandLayout, yTop float64) (p perspCurve, ok bool) {
 	wc := r.width
 	if wc.b <= 0 {
-		return 0, 0, false
+		return p, false
 	}
-	yh := wc.y0 - wc.scale*wc.a/wc.b
-	if yh >= r.yLo-float64(l.step) {
-		return 0, 0, false
+	p.yh = wc.y0 - wc.scale*wc.a/wc.b
+	if p.yh >= r.yLo-float64(l.step) {
+		return p, false
 	}
 	var A [3][3]float64
 	var B [3]float64
 	n := 0
 	for _, i := range r.bands {
-		if i < 0 {
+		if i < 0 || c.cands[i].y < yTop {
 			continue
 		}
 		cd := &c.cands[i]
-		u := cd.y - yh
+		u := cd.y - p.yh
 		v := [3]float64{1, u / 100, 100 / u}
 		wt := c.weight(cd, l)
 		addNormal(&A, &B, v, wt, cd.x)
 		n++
 	}
 	if n < 6 {
-		return 0, 0, false
+		return p, false
 	}
 	sol, ok := solve3(A, B)
 	if !ok {
-		return 0, 0, false
+		return p, false
 	}
-	u := y - yh
-	return sol[0] + sol[1]*u/100 + sol[2]*100/u, sol[1]/100 - sol[2]*100/(u*u), true
+	p.a, p.b, p.c = sol[0], sol[1], sol[2]
+	return p, true
 }
 
 // longestGap is the longest unsupported stretch between two supporting

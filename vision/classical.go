@@ -61,8 +61,10 @@ const (
 //     strong where the two differ (ambiguity; a line that does not narrow
 //     with the chosen line's perspective, such as a rack upright above
 //     the horizon, is not on the floor and does not count), or the line is
-//     far from the prediction. A line whose near half is clipped (a
-//     lamp's glare streak) is discounted in the choice as in the score.
+//     far from the prediction, or its near stretch ends at the reference
+//     row before a missing stretch longer than the line is run out across
+//     (the line is going). A line whose near half is clipped (a lamp's
+//     glare streak) is discounted in the choice as in the score.
 //
 // A Classical is not safe for concurrent use; use one per goroutine.
 type Classical struct {

@@ -287,6 +287,39 @@ func (c *Classical) hiddenNearEnd(r *fitResult, l bandLayout, limit float64) boo
 	return hidden
 }
 
+// nearMarkEnd finds the near mark of line r (the supporting bands from
+// its near end up to the first run of two or more observed bands without
+// support) and the unsupported stretch beyond it inside the measured
+// line: top is the row of the mark's far edge, gap the observed rows of
+// the stretch (bands where the line could not have been seen, lost in
+// glare or off the frame's side, are missing evidence and count for
+// neither). ok is false when the line has no such stretch (the mark is
+// the whole line).
+func (c *Classical) nearMarkEnd(r *fitResult, l bandLayout) (top, gap float64, ok bool) {
+	k := 0
+	for k < len(r.bands) && r.bands[k] < 0 {
+		k++
+	}
+	if k == len(r.bands) {
+		return 0, 0, false
+	}
+	kTop, run := k, 0
+	for k++; k < len(r.bands); k++ {
+		if r.bands[k] >= 0 {
+			if run >= 2 {
+				return float64(l.y1 - (kTop+1)*l.step), float64(run * l.step), true
+			}
+			kTop, run = k, 0
+			continue
+		}
+		y := l.centre(k)
+		if !c.unobservable(l, k, r.xAt(y), r.width.x(math.Max(y, r.yLo))) {
+			run++
+		}
+	}
+	return 0, 0, false
+}
+
 // floorLike says whether line r can lie on the same floor as the chosen
 // line. On a flat floor seen in perspective every line's image width
 // shrinks towards the horizon at the same rate (it is proportional to the
@@ -565,6 +598,21 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 			v = math.Max(v, bridgeFactor*clamp01(1-0.5*s*s))
 		}
 		fs = append(fs, factor{v, "reference row off the measured stretch"})
+	}
+	// The near mark ending at the reference row, with a stretch beyond it
+	// longer than the line is run out across (a missing stretch of tape
+	// arriving): in a frame or two the reference row lies in it, where
+	// nothing is measured and the line is interpolated across more than
+	// it is ever run out. The factor reaches zero as the mark's far end
+	// comes down to the reference row (from a tenth of the ROI height
+	// above it; at the default reference row 0.8, half-way is where the
+	// mark covers half the lower half of the frame), and stays zero with
+	// the reference row inside the stretch: the fail-safe counts from
+	// when the line is going, not from when it has gone. A dashed line's
+	// gaps are mostly within the reach (half its measured span); one that
+	// is not (long gaps, a low camera) is not run out either.
+	if top, gap, ok := c.nearMarkEnd(r, l); ok && gap > reach {
+		fs = append(fs, factor{clamp01((yRefW - top) / (0.1 * roiH)), "line ends just beyond the reference row"})
 	}
 	if hint.Valid {
 		if !fromPrior {

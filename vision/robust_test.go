@@ -1,6 +1,7 @@
 package vision
 
 import (
+	"fmt"
 	"math"
 	"testing"
 
@@ -178,5 +179,54 @@ func TestIsoluminantColourTape(t *testing.T) {
 				t.Errorf("grey copy of an isoluminant tape: found with confidence %.2f", d.Confidence)
 			}
 		})
+	}
+}
+
+// A stripe whose near stretch ends just beyond the reference row, with a
+// missing stretch longer than the line is run out across before it
+// resumes far ahead (the start of a worn-away stretch of tape, or the gap
+// in the reflections scene), is about to leave the reference row unseen:
+// its measurement must not be trusted (confidence below the tracker's
+// 0.5) while one whose near stretch reaches well beyond the reference
+// row, or a dashed line whose dash ends there, is. The cases follow the
+// scene truth's definition of a visible line (capture/synth: laid over at
+// least half the rows of the lower half of the frame): stubs up to rows
+// 0.79 and 0.77 cover 42 % and 46 % of it, the long one 80 %. At every
+// frame size: the mechanism is in fractions of the region, not pixels.
+func TestNearStretchEnding(t *testing.T) {
+	tests := map[string]struct {
+		gap                  [2]float64
+		dashPeriod, dashDuty float64
+		trusted              bool
+	}{
+		"near stretch ends at the reference row":   {gap: [2]float64{0.2, 0.79}},
+		"near stretch ends a little above it":      {gap: [2]float64{0.2, 0.77}},
+		"near stretch reaches well beyond":         {gap: [2]float64{0.2, 0.6}, trusted: true},
+		"dashed, a dash ends at the reference row": {dashPeriod: 0.2, dashDuty: 0.5, trusted: true},
+	}
+	for name, tc := range tests {
+		for _, sz := range [][2]int{{160, 120}, {320, 240}, {640, 480}} {
+			t.Run(fmt.Sprintf("%s/%dx%d", name, sz[0], sz[1]), func(t *testing.T) {
+				s := baseScene(sz[0], sz[1])
+				s.top, s.wTop = 0, 0.015
+				s.gap, s.dashPeriod, s.dashDuty = tc.gap, tc.dashPeriod, tc.dashDuty
+				img := s.draw(t)
+				defer img.Close()
+				det, err := NewClassical(DefaultConfig())
+				if err != nil {
+					t.Fatal(err)
+				}
+				defer det.Close()
+				d := det.Detect(img, Hint{})
+				t.Logf("found %v offset %.1f (truth %.1f) confidence %.2f %q", d.Found, d.OffsetPx, s.truthAt(d.RefRow)-float64(s.w)/2, d.Confidence, d.Reason)
+				trusted := d.Found && d.Confidence >= 0.5
+				if trusted != tc.trusted {
+					t.Errorf("trusted %v, want %v", trusted, tc.trusted)
+				}
+				if trusted && math.Abs(d.OffsetPx-(s.truthAt(d.RefRow)-float64(s.w)/2)) > 0.015*float64(s.w) {
+					t.Errorf("offset off the truth by more than 1.5 %% of the width")
+				}
+			})
+		}
 	}
 }

@@ -31,6 +31,9 @@ type scene struct {
 	shade func(x, y float64) float64
 	// dash: period and duty as fractions of the height (0: solid).
 	dashPeriod, dashDuty float64
+	// gap: rows (fractions of the height, [from, to)) where the stripe
+	// is missing, as a worn-away stretch of tape (from = to: none).
+	gap [2]float64
 	// cracks: thin dark lines across the floor, as (x0, y0, x1, y1)
 	// fractions, drawn 0.3 % of the width thick.
 	cracks [][4]float64
@@ -71,6 +74,9 @@ func (s scene) draw(t testing.TB) gocv.Mat {
 		yf := (float64(y) + 0.5) / float64(s.h)
 		xc, wd := s.centre(yf), s.width(yf)
 		visible := !s.none && yf >= s.top
+		if yf >= s.gap[0] && yf < s.gap[1] {
+			visible = false
+		}
 		if visible && s.dashPeriod > 0 {
 			ph := math.Mod(yf, s.dashPeriod) / s.dashPeriod
 			visible = ph < s.dashDuty

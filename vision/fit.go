@@ -514,6 +514,41 @@ func parabola3(p1, p2, p3 *candidate, y0, sc float64) (curve, bool) {
 	return curve{a: a, b: b, c: c, y0: y0, scale: sc}, true
 }
 
+// widthFit fits the width profile w(t) = a + b·t, t = (y − y0)/sc, by
+// weighted least squares to r's inliers (only the unclipped ones when
+// unclipped is set) and returns it with the number of inliers used.
+func (c *Classical) widthFit(r *fitResult, l bandLayout, y0, sc float64, unclipped bool) (curve, int) {
+	var sw, st, sw2, stt, stw float64
+	n := 0
+	for _, i := range r.bands {
+		if i < 0 {
+			continue
+		}
+		cd := &c.cands[i]
+		if unclipped && cd.sat {
+			continue
+		}
+		t := (cd.y - y0) / sc
+		wt := c.weight(cd, l)
+		sw += wt
+		st += wt * t
+		stt += wt * t * t
+		sw2 += wt * cd.w
+		stw += wt * t * cd.w
+		n++
+	}
+	if sw == 0 {
+		return curve{y0: y0, scale: sc}, 0
+	}
+	det := sw*stt - st*st
+	wc := curve{y0: y0, scale: sc, a: sw2 / sw}
+	if det > 1e-9*sw*sw {
+		wc.b = (sw*stw - st*sw2) / det
+		wc.a = (sw2 - wc.b*st) / sw
+	}
+	return wc, n
+}
+
 // refine fits the centre and width curves to the inliers by weighted least
 // squares (curvature lightly damped, so noise does not bend a straight
 // stripe), drops inliers whose width disagrees with the width profile by
@@ -522,30 +557,17 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 	sc := res.centre.scale
 	y0 := res.centre.y0
 	for pass := 0; pass < 2; pass++ {
-		// Width profile: weighted straight line w(t).
-		var sw, st, sw2, stt, stw float64
-		for _, i := range res.bands {
-			if i < 0 {
-				continue
+		// Width profile: weighted straight line w(t), from the unclipped
+		// inliers when there are three or more: a clipped crossing's
+		// width is the clipped stretch's (a lamp's glare merged with the
+		// stripe), not the stripe's.
+		wc, nu := c.widthFit(res, l, y0, sc, true)
+		if nu < 3 {
+			var na int
+			if wc, na = c.widthFit(res, l, y0, sc, false); na == 0 {
+				res.ok = false
+				return
 			}
-			cd := &c.cands[i]
-			t := (cd.y - y0) / sc
-			wt := c.weight(cd, l)
-			sw += wt
-			st += wt * t
-			stt += wt * t * t
-			sw2 += wt * cd.w
-			stw += wt * t * cd.w
-		}
-		if sw == 0 {
-			res.ok = false
-			return
-		}
-		det := sw*stt - st*st
-		wc := curve{y0: y0, scale: sc, a: sw2 / sw}
-		if det > 1e-9*sw*sw {
-			wc.b = (sw*stw - st*sw2) / det
-			wc.a = (sw2 - wc.b*st) / sw
 		}
 		res.width = wc
 		// Centre: weighted quadratic (no damping of c: t and t² are nearly collinear over a short span, so any damping would straighten real curves).
@@ -559,6 +581,14 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 			cd := &c.cands[i]
 			if ew := wc.x(cd.y); ew > 0 && (cd.w > 1.6*ew || cd.w < ew/1.6) {
 				res.bands[k] = -1
+				continue
+			}
+			// A clipped crossing's centre is the clipped stretch's, which
+			// a lamp's glare beside or over the stripe widens and moves:
+			// where the line has unclipped crossings of its own, they
+			// alone place it. The clipped ones stay inliers where the
+			// line passes through them.
+			if cd.sat && nu >= 3 {
 				continue
 			}
 			t := (cd.y - y0) / sc

@@ -103,7 +103,11 @@ func (lc LaneConfig) Validate() error {
 //  4. while both are seen, the lane's width is learned per row band;
 //     with one, the centre is that line shifted by half the learned width
 //     and the confidence is lowered; with none, nothing is found and the
-//     fail-safe follows as in stripe mode.
+//     fail-safe follows as in stripe mode;
+//  5. the centre's quadratic over the whole stretch gives the offset,
+//     heading and confidence; the reported points follow a local fit of
+//     the centre's points band by band (localCentre), since one
+//     quadratic cannot follow an S-bend in view.
 //
 // A Lane keeps state between frames (the learned width and the last
 // boundaries): use one per clip or camera, not safe for concurrent use.
@@ -245,6 +249,7 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 	}
 	d := c.report(fr, l, &cr, false, gated, 0, hint, yRefIn, yRefW)
 	d.Method = MethodLane
+	ln.followPoints(fr, l, &cr, d.Points)
 	m := &LaneMeasure{BothSeen: both}
 	if left != nil {
 		m.Left = curvePoints(fr, l, left)
@@ -968,6 +973,61 @@ func (ln *Lane) bandCentre(l bandLayout, a, b *fitResult, fl laneFloor, fw float
 	}
 	return r, ok
 }
+
+// followPoints moves the detection's points (input pixels, from the
+// centre's quadratic) onto a local fit of the centre's points (ln.cpts,
+// working pixels) where those are dense (localCentre): the quadratic is
+// fitted to the whole stretch, and one quadratic cannot follow a lane
+// that bends one way near the vehicle and the other way farther on (an S
+// in view, a bend seen in perspective that tightens towards the
+// horizon). Rows without enough points nearby keep the quadratic.
+func (ln *Lane) followPoints(fr frameGeom, l bandLayout, r *fitResult, pts []Point) {
+	for i := range pts {
+		y := fr.toWorkY(pts[i].Y)
+		if y < r.yLo || y > r.yHi {
+			continue
+		}
+		if x, ok := ln.localCentre(l, y); ok {
+			pts[i].X = fr.toInX(x)
+		}
+	}
+}
+
+// localCentre is the centre's x at working row y from a
+// weighted quadratic through the centre's points (ln.cpts) within the
+// ROI's height over followWindow of the row (tricube weights, as in
+// Cleveland's LOWESS); ok false unless points lie on both sides of the
+// row over most of that window (or up to the ROI's edge).
+func (ln *Lane) localCentre(l bandLayout, y float64) (x float64, ok bool) {
+	h := float64(l.y1-l.y0) / followWindow
+	var A [3][3]float64
+	var B [3]float64
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, p := range ln.cpts {
+		u := math.Abs(p[1]-y) / h
+		if u >= 1 {
+			continue
+		}
+		w := p[2] * (1 - u*u*u) * (1 - u*u*u) * (1 - u*u*u) // tricube
+		t := (p[1] - y) / h
+		addNormal(&A, &B, [3]float64{1, t, t * t}, w, p[0])
+		lo, hi = math.Min(lo, p[1]), math.Max(hi, p[1])
+	}
+	if A[0][0] <= 0 || lo > y-0.3*h && y-0.3*h > float64(l.y0) || hi < y+0.3*h && y+0.3*h < float64(l.y1) {
+		return 0, false
+	}
+	sol, ok := solve3(A, B)
+	if !ok {
+		return 0, false
+	}
+	return sol[0], true
+}
+
+// followWindow: localCentre fits the centre's points within the ROI's
+// height over followWindow either side of each row (a quarter: some
+// twenty bands each way smooth the points' jitter; a quadratic over that
+// window follows a bend that reverses within the view).
+const followWindow = 4
 
 // fitCentre fits the centre's quadratic to the points (working x, y and
 // weight), by weighted least squares; r.inliers is the number of points.

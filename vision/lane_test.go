@@ -424,3 +424,60 @@ func BenchmarkModeLane640(b *testing.B) {
 		}
 	})
 }
+
+// TestLaneFollowPoints: the centre's points of an S in view (x = 160 +
+// 40·sin(2π(240 − y)/240), a full turn of a sine over the image height:
+// plain trigonometry, no fit to check against) are followed by the
+// detection's points within a pixel (a fifth of the scoring tolerance at
+// 320 px, TuSimple's 20 px at 1280 scaled) where they are dense, while the
+// best quadratic through them misses by several pixels; rows off the
+// points' stretch keep the quadratic.
+func TestLaneFollowPoints(t *testing.T) {
+	const w, h = 320, 240
+	fr := frameGeom{inW: w, inH: h, sx: 1, sy: 1, ww: w, wh: h}
+	l := bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
+	truth := func(y float64) float64 { return 160 + 40*math.Sin(2*math.Pi*(240-y)/240) }
+	ln := &Lane{}
+	for k := 0; k < l.n; k++ {
+		y := l.centre(k)
+		if y < 60 {
+			continue // the points stop short of the ROI's top
+		}
+		ln.cpts = append(ln.cpts, [3]float64{truth(y), y, 1})
+	}
+	r, ok := fitCentre(l, ln.cpts)
+	if !ok {
+		// an S is no plausible quadratic everywhere; fit it anyway
+		r.ok = true
+	}
+	pts := make([]Point, 32)
+	quadErr := 0.0
+	for i := range pts {
+		y := 239 - float64(i)*7.5 // 239 … 6.5
+		pts[i] = Point{X: fr.toInX(r.centre.x(fr.toWorkY(y))), Y: y}
+		if yw := fr.toWorkY(y); yw >= 80 && yw <= 225 {
+			quadErr = math.Max(quadErr, math.Abs(fr.toWorkX(pts[i].X)-truth(yw)))
+		}
+	}
+	before := append([]Point(nil), pts...)
+	ln.followPoints(fr, l, &r, pts)
+	worst := 0.0
+	for i, p := range pts {
+		yw := fr.toWorkY(p.Y)
+		switch {
+		case yw < r.yLo || yw > r.yHi:
+			if p != before[i] {
+				t.Errorf("row %.1f off the points' stretch moved from %.1f to %.1f", p.Y, before[i].X, p.X)
+			}
+		case yw >= 80 && yw <= 225:
+			worst = math.Max(worst, math.Abs(fr.toWorkX(p.X)-truth(yw)))
+		}
+	}
+	t.Logf("worst error over rows 80–225: quadratic %.2f px, followed %.2f px", quadErr, worst)
+	if quadErr < 3 {
+		t.Fatalf("the quadratic misses the S by only %.2f px: the test does not test", quadErr)
+	}
+	if worst > 1 {
+		t.Errorf("followed points miss the S by %.2f px, want ≤ 1", worst)
+	}
+}

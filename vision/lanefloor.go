@@ -360,13 +360,26 @@ func (ln *Lane) onFloor(f laneFloor, l bandLayout, p *fitResult, d float64, pts 
 		if cd.y > yMid {
 			x = p.centre.x(cd.y) // the near half: the image fit, smoother
 		}
-		if X, Z, ok := f.toFloor(x, cd.y); ok {
-			if cd.y > yMid {
-				nearX, nearY = append(nearX, x), append(nearY, cd.y)
-			}
-			q = append(q, [2]float64{X, Z})
-			kLast, yLast = k, cd.y
+		X, Z, ok := f.toFloor(x, cd.y)
+		if !ok {
+			continue
 		}
+		if n := len(q); n > 2*arcMin {
+			// off the circle through the last points: the fit's
+			// inliers have moved to another line (one crossing its
+			// quadratic where this one bends away); the line beyond is
+			// grown on the circle below
+			if c, ok := fitFloorCircle(q[n-2*arcMin:]); ok {
+				if _, _, _, _, dist := c.nearest([2]float64{X, Z}); dist > leaveLine*math.Abs(d) {
+					break
+				}
+			}
+		}
+		if cd.y > yMid {
+			nearX, nearY = append(nearX, x), append(nearY, cd.y)
+		}
+		q = append(q, [2]float64{X, Z})
+		kLast, yLast = k, cd.y
 	}
 	ln.qa = q
 	h := len(q) / 2
@@ -508,6 +521,13 @@ const (
 	maxCentreAngle = 68 * math.Pi / 180
 	maxCentreGap   = 6
 )
+
+// leaveLine is how far from the circle through a boundary's last
+// points, as a share of half the lane's width, its next supporting
+// candidate may lie on the floor and still be on the same line (see
+// onFloor): a boundary bends far less between two bands, and the next
+// line is a lane's width away.
+const leaveLine = 0.25
 
 // slopeRows is how many working rows back the centre's direction is
 // taken from, when it is checked against maxCentreAngle.

@@ -599,19 +599,17 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		}
 		fs = append(fs, factor{v, "reference row off the measured stretch"})
 	}
-	// The near mark ending at the reference row, with a stretch beyond it
-	// longer than the line is run out across (a missing stretch of tape
-	// arriving): in a frame or two the reference row lies in it, where
-	// nothing is measured and the line is interpolated across more than
-	// it is ever run out. The factor reaches zero as the mark's far end
-	// comes down to the reference row (from a tenth of the ROI height
-	// above it; at the default reference row 0.8, half-way is where the
-	// mark covers half the lower half of the frame), and stays zero with
-	// the reference row inside the stretch: the fail-safe counts from
-	// when the line is going, not from when it has gone. A dashed line's
-	// gaps are mostly within the reach (half its measured span); one that
-	// is not (long gaps, a low camera) is not run out either.
-	if top, gap, ok := c.nearMarkEnd(r, l); ok && gap > reach {
+	// The near mark ending just beyond the reference row, with a stretch
+	// beyond it longer than the line is run out across (a missing stretch
+	// of tape arriving): in a frame or two the reference row lies in it,
+	// where nothing is measured. The factor falls to zero as the mark's
+	// far end comes down to the reference row (from a tenth of the ROI
+	// height above it; at the default reference row 0.8, half-way is
+	// where the mark covers half the lower half of the frame), so that
+	// the fail-safe counts from when the line is going, not from when it
+	// has gone. With the reference row inside the stretch the line is
+	// judged as any line across a gap (bridges, the gaps factor).
+	if top, gap, ok := c.nearMarkEnd(r, l); ok && gap > reach && top < yRefW {
 		fs = append(fs, factor{clamp01((yRefW - top) / (0.1 * roiH)), "line ends just beyond the reference row"})
 	}
 	if hint.Valid {

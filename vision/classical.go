@@ -43,7 +43,10 @@ const (
 //  4. fit a centreline x = a + b·y + c·y² to the candidates with RANSAC,
 //     gated by the tracker's prediction when the Hint is valid, then by
 //     weighted least squares on the inliers, rejecting candidates whose
-//     width disagrees with the fitted width profile; a dotted or dashed
+//     width disagrees with the fitted width profile or that lie above
+//     the line's own horizon (where the width of its near half runs out:
+//     rack uprights and people standing on the line's far end, seen by a
+//     low camera); a dotted or dashed
 //     line is accepted with support in a fifth of its bands when that
 //     support forms at least three separate marks, and run out across a
 //     gap at the vehicle that is no longer on the floor than its own gaps
@@ -102,7 +105,12 @@ type Classical struct {
 	rng                             uint64
 	hairline                        float64      // width at which a candidate counts half, working px
 	mirror                          mirrorMotion // the last frame, to tell mirrored lamps by motion
-	closed                          bool
+	// ownHorizon: inliers above a line's own horizon drop out of its fit
+	// (see nearHorizon). Off in lane mode: with a wide lens the two
+	// boundaries' far widths do not follow the pinhole's (lane-fisheye at
+	// 320×240 lost 3 frames with it).
+	ownHorizon bool
+	closed     bool
 }
 
 // NewClassical returns a detector for cfg, or the error from cfg.Validate.
@@ -110,7 +118,7 @@ func NewClassical(cfg Config) (*Classical, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, err
 	}
-	c := &Classical{cfg: cfg}
+	c := &Classical{cfg: cfg, ownHorizon: true}
 	colour, ok, _ := ParseTapeColour(cfg.TapeColour)
 	if ok {
 		c.tape, c.hasTape = colour, true

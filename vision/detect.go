@@ -91,8 +91,10 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 		c.support(r.centre, l, fr.ww, byBand, chans, fromPrior, true, theirs)
 		var s1, s2 float64
 		apart := 0
+		// Above either line's own horizon nothing is on the floor.
+		yh := math.Max(chosen.yh, r.yh)
 		for k := range theirs {
-			if theirs[k] > 0 && (2*k < l.n || mine[k] > 0) {
+			if theirs[k] > 0 && (2*k < l.n || mine[k] > 0) && l.centre(k) >= yh {
 				s2 += theirs[k]
 				s1 += mine[k]
 				apart++
@@ -327,9 +329,13 @@ func (c *Classical) nearMarkEnd(r *fitResult, l bandLayout) (top, gap float64, o
 // predicts how much r must narrow between its ends. A line that does not
 // narrow as predicted (a rack upright, a wall edge, a window frame), or
 // lies where the chosen line's width has already run out (above the
-// horizon), is not on the floor. Without perspective to judge by (a
+// horizon), or lies mostly above the chosen line's own horizon (see
+// nearHorizon), is not on the floor. Without perspective to judge by (a
 // camera looking straight down, or a short line) every line is.
 func floorLike(chosen, r *fitResult) bool {
+	if chosen.yh-r.yLo > 0.5*(r.yHi-r.yLo) {
+		return false
+	}
 	eTop, eBot := chosen.width.x(r.yLo), chosen.width.x(r.yHi)
 	if eBot <= 0 {
 		return true

@@ -41,6 +41,9 @@ type fitResult struct {
 	// nearX, nearSlope: the run-out's straight line at row yHi (x and
 	// dx/dy), used below yHi when bridged.
 	nearX, nearSlope float64
+	// yh is the line's own horizon row (see nearHorizon), −Inf when none
+	// was found; no inlier lies above it.
+	yh float64
 	// bridgeSpread is how far apart the estimates of a bridged line
 	// land at the reference row, in units of the agreement required
 	// (see Classical.bridges).
@@ -556,6 +559,7 @@ func (c *Classical) widthFit(r *fitResult, l bandLayout, y0, sc float64, unclipp
 func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int, sel selector) {
 	sc := res.centre.scale
 	y0 := res.centre.y0
+	res.yh = math.Inf(-1)
 	for pass := 0; pass < 2; pass++ {
 		// Width profile: weighted straight line w(t), from the unclipped
 		// inliers when there are three or more: a clipped crossing's
@@ -570,6 +574,18 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 			}
 		}
 		res.width = wc
+		// Off the floor: inliers above the line's own horizon, the row
+		// where its near half's width runs out, are not on the floor
+		// (rack uprights, door frames and people standing on the line's
+		// far end seen by a low camera) and drop out.
+		if yh, ok := c.nearHorizon(res, l); c.ownHorizon && ok {
+			for k, i := range res.bands {
+				if i >= 0 && c.offFloor(c.cands[i], yh, l) {
+					res.bands[k] = -1
+				}
+			}
+			res.yh = yh
+		}
 		// Centre: weighted quadratic (no damping of c: t and t² are nearly collinear over a short span, so any damping would straighten real curves).
 		var A [3][3]float64
 		var B [3]float64
@@ -613,6 +629,9 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 		}
 		res.centre = q
 		res.score, res.inliers = c.evaluate(q, l, ww, byBand, sel, res.bands)
+		if !math.IsInf(res.yh, -1) {
+			res.score, res.inliers = c.cutAbove(res, l, ww, res.yh)
+		}
 	}
 	// Summaries.
 	res.yLo, res.yHi = math.Inf(1), math.Inf(-1)
@@ -706,4 +725,112 @@ func addNormal(A *[3][3]float64, B *[3]float64, v [3]float64, w, x float64) {
 		}
 		B[r] += w * v[r] * x
 	}
+}
+
+// nearHorizon finds the horizon of line res on the floor from its own
+// width: on a flat floor seen in perspective the image width of a stripe
+// of constant width is proportional to the row's distance below the
+// horizon, so a straight line fitted to the widths of the near half of
+// the inliers (by rows; near the vehicle the line is surely on the floor)
+// reaches zero at the horizon. ok is false without perspective to judge
+// by (widths not narrowing away from the vehicle), when the near half's
+// inliers span less than half of its rows (glare or the frame's edge
+// hiding the rest: a short stretch says little of the narrowing), when
+// the horizon
+// lies above every inlier, or when the inliers above it narrow away too
+// (the horizon misjudged: they are the line's own far stretch).
+func (c *Classical) nearHorizon(res *fitResult, l bandLayout) (yh float64, ok bool) {
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, i := range res.bands {
+		if i >= 0 {
+			lo, hi = math.Min(lo, c.cands[i].y), math.Max(hi, c.cands[i].y)
+		}
+	}
+	mid := (lo + hi) / 2
+	var sw, sy, syy, sx, sxy float64
+	n := 0
+	yTop := hi
+	for _, i := range res.bands {
+		if i < 0 || c.cands[i].y < mid || c.cands[i].sat {
+			continue
+		}
+		cd := &c.cands[i]
+		wt := c.weight(cd, l)
+		y := cd.y - hi
+		sw += wt
+		sy += wt * y
+		syy += wt * y * y
+		sx += wt * cd.w
+		sxy += wt * y * cd.w
+		yTop = math.Min(yTop, cd.y)
+		n++
+	}
+	// The widths must be measured over most of the near half to be run
+	// out to a horizon: a short stretch left between glare and the
+	// frame's edge says little of how the line narrows.
+	det := sw*syy - sy*sy
+	if n < 6 || det <= 1e-9*sw*sw || hi-yTop < 0.5*(hi-mid) {
+		return 0, false
+	}
+	b := (sw*sxy - sy*sx) / det // dw/dy: positive when the line narrows away
+	a := (sx - b*sy) / sw       // width at row hi
+	if b <= 0 || a <= 0 {
+		return 0, false
+	}
+	yh = hi - a/b
+	if yh <= lo {
+		return 0, false
+	}
+	// What lies above must not narrow away as the floor does (at a
+	// quarter of the near half's rate or more): a far stretch of the line
+	// whose near half's widths were misjudged (glare, wear) does, an
+	// upright or a person standing on it does not.
+	sw, sy, syy, sx, sxy, n = 0, 0, 0, 0, 0, 0
+	for _, i := range res.bands {
+		if i < 0 || c.cands[i].y >= yh {
+			continue
+		}
+		cd := &c.cands[i]
+		y := cd.y - yh
+		sw++
+		sy += y
+		syy += y * y
+		sx += cd.w
+		sxy += y * cd.w
+		n++
+	}
+	if det := sw*syy - sy*sy; n >= 4 && det > 1e-9*sw*sw {
+		if bUp := (sw*sxy - sy*sx) / det; bUp > 0.25*b {
+			return 0, false
+		}
+	}
+	return yh, true
+}
+
+// cutAbove drops res's inliers above row yh and returns its score and
+// inlier count over those left.
+func (c *Classical) cutAbove(res *fitResult, l bandLayout, ww int, yh float64) (score float64, n int) {
+	for k, i := range res.bands {
+		if i < 0 {
+			continue
+		}
+		cd := &c.cands[i]
+		if c.offFloor(*cd, yh, l) {
+			res.bands[k] = -1
+			continue
+		}
+		r := math.Abs(cd.x-res.centre.x(cd.y)) / tolerance(cd, ww)
+		score += c.weight(cd, l) * (1 - 0.5*r*r)
+		n++
+	}
+	return score, n
+}
+
+// offFloor says whether candidate cd lies off the floor of a line whose
+// own horizon is row yh: above it by more than a tenth of the ROI
+// height, or above it and wider than a hairline (twice c.hairline). The
+// horizon is measured from widths, to a few rows: just above it a far
+// stretch of the line itself, a pixel or two wide, may still be seen.
+func (c *Classical) offFloor(cd candidate, yh float64, l bandLayout) bool {
+	return cd.y < yh && (cd.w > 2*c.hairline || cd.y < yh-0.1*float64(l.y1-l.y0))
 }

@@ -170,6 +170,7 @@ func NewLane(cfg Config, lc LaneConfig) (*Lane, error) {
 	if err != nil {
 		return nil, err
 	}
+	c.ownHorizon = false // see Classical.ownHorizon
 	return &Lane{c: c, lc: lc}, nil
 }
 

@@ -1,0 +1,129 @@
+package vision
+
+import (
+	"math"
+	"testing"
+)
+
+// TestNearHorizonPinhole: a straight 50 mm stripe on the floor seen by a
+// pinhole camera 5 cm above it, pitched 3° up (as low-camera; Hartley &
+// Zisserman, "Multiple View Geometry", ch. 6: depth along the optical
+// axis Zc = D·cos p + h·sin p, width f·W/Zc, row cy + f·(h·cos p −
+// D·sin p)/Zc, horizon at cy − f·tan p), with a rack upright of constant
+// width standing on the line's far end above the horizon. Refining a
+// hypothesis that runs up both, the line's own horizon from its near half
+// must lie within 1.5 rows of the pinhole's, and the fitted line must keep
+// no candidate above it.
+func TestNearHorizonPinhole(t *testing.T) {
+	const (
+		w, h    = 320, 240
+		f       = 260.0
+		cx, cy  = 160.0, 120.0
+		camH    = 0.05
+		pitch   = -3 * math.Pi / 180
+		stripeW = 0.05
+	)
+	yHorizon := cy - f*math.Tan(pitch)
+	geom := func(y float64) (x, wd float64, ok bool) {
+		m := (y - cy) / f
+		d := camH * (math.Cos(pitch) - m*math.Sin(pitch)) / (m*math.Cos(pitch) + math.Sin(pitch))
+		if d <= 0.08 || d > 30 {
+			return 0, 0, false
+		}
+		zc := d*math.Cos(pitch) + camH*math.Sin(pitch)
+		return cx + f*(-0.3+0.1*d)/zc, f * stripeW / zc, true
+	}
+	c, err := NewClassical(DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer c.Close()
+	c.hairline = 0.006 * w
+	l := bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
+	xFar, _, _ := geom(yHorizon + 3)
+	byBand := make([][2]int, l.n)
+	for k := 0; k < l.n; k++ {
+		lo := len(c.cands)
+		y := l.centre(k)
+		if x, wd, ok := geom(y); ok && wd >= 1 {
+			c.cands = append(c.cands, candidate{band: k, y: y, x: x, w: wd, contrast: 0.3, snr: 20})
+		} else if y < yHorizon && y > 20 {
+			// The upright: 6 px wide, straight up from the line's far end.
+			c.cands = append(c.cands, candidate{band: k, y: y, x: xFar, w: 6, contrast: 0.5, snr: 30})
+		}
+		byBand[k] = [2]int{lo, len(c.cands)}
+	}
+	// A hypothesis running up the stripe and on up the upright: every
+	// candidate an inlier, as a curve through both would collect them.
+	r := &fitResult{centre: curve{y0: float64(l.y1), scale: float64(l.y1 - l.y0)}, bands: make([]int, l.n)}
+	for k := range r.bands {
+		r.bands[k] = -1
+		if byBand[k][1] > byBand[k][0] {
+			r.bands[k] = byBand[k][0]
+		}
+	}
+	c.refine(r, l, w, byBand, selector{})
+	if !r.ok {
+		t.Fatal("no fit")
+	}
+	t.Logf("pinhole horizon row %.2f, the line's own %.2f; inliers over rows %.1f–%.1f", yHorizon, r.yh, r.yLo, r.yHi)
+	if math.Abs(r.yh-yHorizon) > 1.5 {
+		t.Errorf("horizon row %.2f, pinhole %.2f", r.yh, yHorizon)
+	}
+	if r.yLo < yHorizon {
+		t.Errorf("inliers reach row %.1f, above the horizon at %.1f", r.yLo, yHorizon)
+	}
+}
+
+// TestNearHorizonShortNearHalf: the widths of a near half measured over
+// a short stretch only are not run out to a horizon. The candidates are
+// those measured on the stripe in glare@320x240 frame 8 (chroma channel):
+// the nearest 45 rows, their widths bloomed by a lamp's glare (21.7 px
+// falling to 10.3), then nothing up to row 47, then the far stretch,
+// 3–6 px without a trend. Their widths alone would put a horizon at row
+// 156 and drop the far stretch, 80 % of the line's rows, though it is the
+// line's own; no horizon may be judged, and the far stretch stays in the
+// fit.
+func TestNearHorizonShortNearHalf(t *testing.T) {
+	const w = 320
+	meas := [][3]float64{ // band, x, width (working px)
+		{0, 221.8, 21.7}, {1, 221.9, 20.1}, {2, 223.3, 15.5}, {3, 223.1, 15.1}, {4, 222.6, 14.6},
+		{6, 222.2, 13.2}, {7, 221.7, 12.6}, {9, 220.8, 12.2}, {10, 220.4, 11.5}, {12, 219.7, 10.3},
+		{15, 217.4, 11.1}, {64, 184.6, 3.2}, {65, 184.4, 3.2}, {66, 184.1, 3.9}, {67, 184.0, 4.0},
+		{68, 183.7, 4.3}, {69, 183.7, 5.3}, {70, 183.7, 5.8}, {71, 183.4, 6.3}, {72, 183.0, 6.0},
+		{73, 182.6, 6.1}, {74, 182.0, 5.9}, {75, 181.6, 5.4}, {76, 181.0, 5.6}, {77, 180.5, 5.1},
+		{78, 180.1, 4.9}, {79, 180.0, 4.5},
+	}
+	c, err := NewClassical(DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer c.Close()
+	c.hairline = 0.006 * w
+	l := bandLayout{x0: 0, x1: w, y0: 0, y1: 240, step: 3, n: 80}
+	byBand := make([][2]int, l.n)
+	r := &fitResult{centre: curve{y0: float64(l.y1), scale: float64(l.y1 - l.y0)}, bands: make([]int, l.n)}
+	j := 0
+	for k := 0; k < l.n; k++ {
+		lo := len(c.cands)
+		r.bands[k] = -1
+		if j < len(meas) && int(meas[j][0]) == k {
+			r.bands[k] = len(c.cands)
+			c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: meas[j][1], w: meas[j][2], contrast: 0.25, snr: 20, chroma: true})
+			j++
+		}
+		byBand[k] = [2]int{lo, len(c.cands)}
+	}
+	c.primeScores(w)
+	c.refine(r, l, w, byBand, selector{chroma: true})
+	if !r.ok {
+		t.Fatal("no fit")
+	}
+	t.Logf("the line's own horizon %.2f; inliers over rows %.1f–%.1f", r.yh, r.yLo, r.yHi)
+	if !math.IsInf(r.yh, -1) {
+		t.Errorf("horizon judged at row %.2f from 45 rows of the near half", r.yh)
+	}
+	if r.yLo > 47 {
+		t.Errorf("inliers from row %.1f: the far stretch was dropped", r.yLo)
+	}
+}

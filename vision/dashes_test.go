@@ -115,12 +115,10 @@ func TestPerspLine(t *testing.T) {
 		t.Run(name, func(t *testing.T) {
 			p := tc.pitchDeg * math.Pi / 180
 			project := func(y float64) (x, wd float64, ok bool) {
-				m := (y - cy) / f
-				d := camH * (math.Cos(p) - m*math.Sin(p)) / (m*math.Cos(p) + math.Sin(p))
+				d, zc := floorAt(y, f, cy, camH, p)
 				if d <= 0 || d > 7 {
 					return 0, 0, false
 				}
-				zc := d*math.Cos(p) + camH*math.Sin(p)
 				X := tc.x0 + tc.theta*d + tc.kappa*d*d/2
 				return cx + f*X/zc, f * stripeW / zc, true
 			}
@@ -202,12 +200,10 @@ func TestBridgeRules(t *testing.T) {
 	)
 	// Line: X = 0.1 + 0.08·D (m), and bend(D) more on a bend.
 	geomK := func(y float64, bend func(d float64) float64) (x, wd, d float64, ok bool) {
-		m := (y - cy) / f
-		d = camH * (math.Cos(pitch) - m*math.Sin(pitch)) / (m*math.Cos(pitch) + math.Sin(pitch))
+		d, zc := floorAt(y, f, cy, camH, pitch)
 		if d <= 0 || d > 8 {
 			return 0, 0, 0, false
 		}
-		zc := d*math.Cos(pitch) + camH*math.Sin(pitch)
 		b := 0.0
 		if bend != nil {
 			b = bend(d)
@@ -400,4 +396,15 @@ func TestMarksAccepted(t *testing.T) {
 			}
 		})
 	}
+}
+
+// floorAt intersects the ray of image row y with the floor for a pinhole
+// camera (focal length f px, principal row cy) at height camH (m) pitched
+// down by pitch (rad): d is the floor distance ahead and zc the depth
+// along the optical axis, so that a floor point X across projects to
+// x = cx + f·X/zc (Hartley & Zisserman, ch. 6). d ≤ 0 above the horizon.
+func floorAt(y, f, cy, camH, pitch float64) (d, zc float64) {
+	m := (y - cy) / f
+	d = camH * (math.Cos(pitch) - m*math.Sin(pitch)) / (m*math.Cos(pitch) + math.Sin(pitch))
+	return d, d*math.Cos(pitch) + camH*math.Sin(pitch)
 }

@@ -25,12 +25,10 @@ func TestNearHorizonPinhole(t *testing.T) {
 	)
 	yHorizon := cy - f*math.Tan(pitch)
 	geom := func(y float64) (x, wd float64, ok bool) {
-		m := (y - cy) / f
-		d := camH * (math.Cos(pitch) - m*math.Sin(pitch)) / (m*math.Cos(pitch) + math.Sin(pitch))
+		d, zc := floorAt(y, f, cy, camH, pitch)
 		if d <= 0.08 || d > 30 {
 			return 0, 0, false
 		}
-		zc := d*math.Cos(pitch) + camH*math.Sin(pitch)
 		return cx + f*(-0.3+0.1*d)/zc, f * stripeW / zc, true
 	}
 	c, err := NewClassical(DefaultConfig())

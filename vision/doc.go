@@ -6,6 +6,32 @@
 // a reference row, heading, apparent width and a confidence in [0, 1].
 // Detectors never retain the Mat they are given.
 //
+// # The classical detector, stage by stage
+//
+//   - classical.go: the frame is scaled to a working width (WorkWidth) and
+//     turned into grey, an illumination-normalised evidence image
+//     (background estimate) and two chroma planes.
+//   - candidates.go: per row band (about 80 over the region of interest),
+//     ridge filters of several widths find crossings of a stripe; each is
+//     measured between its half-height edges, must have sharp edges and pass
+//     a Sauvola test. Clipped (glare) and out-of-picture columns are kept, so
+//     that a band lost in glare counts as missing evidence, not absence.
+//   - fit.go: RANSAC over the crossings (with the tracker's prediction as a
+//     gated prior), then refine: width and centre curves by weighted least
+//     squares, crossings whose width disagrees dropped, clipped crossings
+//     left out of the centre fit where the line has unclipped ones, and
+//     inliers above the line's own horizon (from its near widths) dropped.
+//     Dashed lines are run across a gap at the vehicle only under tested
+//     rules (bridges, in detect.go).
+//   - detect.go: the best line over the channels is chosen, compared with
+//     the strongest other line (ambiguity), and report turns it into a
+//     Detection whose confidence is the product of named factors; the
+//     weakest one is the Reason (the track log's meas_reason).
+//   - mirror.go (lamp reflections moving with the camera), floorroi.go
+//     (region of interest from a floor calibration), lane.go and
+//     lanefloor.go (lane mode), reliability.go (stated confidence against
+//     observed accuracy).
+//
 // Image-plane conventions used throughout hewline:
 //   - x grows to the right, y grows downwards, in the input frame's pixels;
 //   - OffsetPx is x(line at the reference row) − W/2: positive when the

@@ -9,8 +9,10 @@
 // # The classical detector, stage by stage
 //
 //   - classical.go: the frame is scaled to a working width (WorkWidth) and
-//     turned into grey, an illumination-normalised evidence image
-//     (background estimate) and two chroma planes.
+//     turned into a luminance evidence image and two chromaticity planes
+//     divided by the luminance (so that shadows and exposure changes leave
+//     them as they are). Light is normalised where crossings are measured:
+//     as Weber contrast against the floor on either side.
 //   - candidates.go: per row band (about 80 over the region of interest),
 //     ridge filters of several widths find crossings of a stripe; each is
 //     measured between its half-height edges, must have sharp edges and pass

@@ -32,7 +32,13 @@ import (
 // reachWindow, each no farther than the one before (within reachSlackPx
 // rows, for the detector's jitter) and the last clearly shorter than the
 // first; a single short detection is only refused (see usable), never an
-// alarm on its own.
+// alarm on its own. reachSlackPx is given at RefWidthPx and scaled with
+// the frame like the other pixel settings (SetFrameWidth): a line's end
+// runs down the image, and the detector's rows jitter, in proportion to
+// the frame. (Unscaled, 2 rows per sample asked a line's end to fall
+// faster than 60 rows/s at 30 frames/s at every size: the worn gap of
+// lane-reflections at 160×120 came down at 2 rows a frame, 60 rows/s,
+// and was coasted over for the whole FailSafeAfter.)
 const (
 	reachWindow     = 300 * time.Millisecond
 	reachMinSamples = 3
@@ -68,8 +74,9 @@ func (r *reachTrack) add(now time.Duration, m Measurement) {
 
 // shrinking returns the rate (rows per second, negative) at which the
 // reach has been falling over the recent samples, and whether it has
-// been falling steadily (see the constants' comment).
-func (r *reachTrack) shrinking(now time.Duration) (rate float64, last reachSample, ok bool) {
+// been falling steadily (see the constants' comment), with slack the
+// jitter allowed per sample in rows (reachSlackPx at the frame's size).
+func (r *reachTrack) shrinking(now time.Duration, slack float64) (rate float64, last reachSample, ok bool) {
 	i0 := 0
 	for i0 < len(r.s) && now-r.s[i0].t > reachWindow {
 		i0++
@@ -79,13 +86,13 @@ func (r *reachTrack) shrinking(now time.Duration) (rate float64, last reachSampl
 		return 0, reachSample{}, false
 	}
 	for i := 1; i < len(recent); i++ {
-		if recent[i].reach > recent[i-1].reach+reachSlackPx {
+		if recent[i].reach > recent[i-1].reach+slack {
 			return 0, reachSample{}, false
 		}
 	}
 	first, last := recent[0], recent[len(recent)-1]
 	dt := (last.t - first.t).Seconds()
-	if dt <= 0 || first.reach-last.reach <= reachSlackPx*float64(len(recent)-1) {
+	if dt <= 0 || first.reach-last.reach <= slack*float64(len(recent)-1) {
 		return 0, reachSample{}, false
 	}
 	return (last.reach - first.reach) / dt, last, true
@@ -94,7 +101,7 @@ func (r *reachTrack) shrinking(now time.Duration) (rate float64, last reachSampl
 // lineEnded says whether, with m unusable at now, the line is seen to
 // have ended, and why.
 func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
-	rate, last, ok := t.reach.shrinking(now)
+	rate, last, ok := t.reach.shrinking(now, reachSlackPx*t.pxScale)
 	if !ok {
 		return "", false
 	}

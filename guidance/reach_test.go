@@ -1,6 +1,7 @@
 package guidance_test
 
 import (
+	"fmt"
 	"strings"
 	"testing"
 	"time"
@@ -124,5 +125,39 @@ func TestShortLineIsNotAcquired(t *testing.T) {
 	}
 	if e.Tracking {
 		t.Fatalf("tracking on a line that ends short of the reference row: %+v", e)
+	}
+}
+
+func TestSeeingTheLineEndAtEverySize(t *testing.T) {
+	// The same end coming toward the camera at every frame size: at
+	// 640×480 it runs down 8 rows a frame from 96 rows past the reference
+	// row, at 160×120 (a quarter) 2 rows a frame from 24 (the worn gap of
+	// lane-reflections at 160×120 came down 2 rows a frame from 24.5).
+	// The first frame that ends short of the reference row (index 12) is
+	// an alarm at every size, well before FailSafeAfter would raise one.
+	for _, w := range []int{160, 320, 640, 1280} {
+		t.Run(fmt.Sprintf("%d px wide", w), func(t *testing.T) {
+			s := float64(w) / guidance.RefWidthPx
+			tr := newTracker(t, guidance.DefaultConfig())
+			tr.SetFrameWidth(w)
+			var now time.Duration
+			for ; now < time.Second; now += 33 * ms {
+				tr.Update(now, reaching(96*s))
+			}
+			for i := 0; i < 16; i++ {
+				e := tr.Update(now, reaching((96-8*float64(i+1))*s))
+				now += 33 * ms
+				lost := e.State == guidance.Lost
+				if lost && i < 12 {
+					t.Fatalf("frame %d: lost (%s) while the line still reaches past the reference row", i, e.Reason)
+				}
+				if i == 12 {
+					if !lost || !strings.Contains(e.Reason, "short of the reference row") {
+						t.Fatalf("frame %d (reach %.1f rows): %s (%q), want lost: the line ends short", i, (96-8*float64(i+1))*s, e.State, e.Reason)
+					}
+					return
+				}
+			}
+		})
 	}
 }

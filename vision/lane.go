@@ -156,6 +156,7 @@ type Lane struct {
 	fits       [3]fitResult
 	sides      [2]fitResult
 	cpts       [][3]float64 // scratch for centre
+	bare       [2][]bool    // scratch for bandCentre: bands in a boundary's long unsupported run
 }
 
 // sideAt is a line's offset and heading at the reference row.
@@ -927,12 +928,23 @@ func (ln *Lane) centre(l bandLayout, a, b *fitResult, yRefW float64) (fitResult,
 // band: midway between them where both are, half the lane's width from
 // the one there (on the floor when fok, at half weight) otherwise. With
 // one boundary on the floor, the centre is run out to that boundary's far
-// end (the lane runs on there).
+// end (the lane runs on there). On the floor (fok), where one boundary's
+// fit crosses a long stretch without its support (bareRuns) while the
+// other is seen there, the centre there comes from the seen one alone:
+// such a fit reaches its far inliers across the stretch, and those may
+// be another line crossing its quadratic (a boundary leaving the frame's
+// side in a bend, a piece of the other line beyond it), so midway is no
+// better than a guess. Without the floor (a strong fisheye fits none)
+// the centre stays midway: the learned widths alone put it no better.
 func (ln *Lane) bandCentre(l bandLayout, a, b *fitResult, fl laneFloor, fw float64, fok bool) (fitResult, bool) {
 	pts := ln.cpts[:0]
+	bareA, bareB := ln.bareRuns(0, l, a), ln.bareRuns(1, l, b)
 	for k := 0; k < l.n; k++ {
 		y := l.centre(k)
 		inA, inB := covers(a, l, y), covers(b, l, y)
+		if fok && inA && inB && bareA[k] != bareB[k] {
+			inA, inB = !bareA[k], !bareB[k]
+		}
 		var x, wt float64
 		switch {
 		case inA && inB:
@@ -973,6 +985,40 @@ func (ln *Lane) bandCentre(l bandLayout, a, b *fitResult, fl laneFloor, fw float
 		ok = plausible(r.centre, over)
 	}
 	return r, ok
+}
+
+// bareRuns marks, in ln.bare[s] (valid until the next call for s), the
+// bands of r's stretch inside a run of bands without r's support longer
+// than 5 % of the ROI height (as reach counts a gap). A boundary marked
+// with a pattern (two gaps of its own or more: dashes) has none: its
+// fit through the gaps is the line. A nil r has none.
+func (ln *Lane) bareRuns(s int, l bandLayout, r *fitResult) []bool {
+	if cap(ln.bare[s]) < l.n {
+		ln.bare[s] = make([]bool, l.n)
+	}
+	bare := ln.bare[s][:l.n]
+	clear(bare)
+	if r == nil || len(r.bands) < l.n || ownGaps(r, l) >= 2 {
+		return bare
+	}
+	maxGap := max(2, int(0.05*float64(l.n)))
+	start := -1 // first band of the current unsupported run after support
+	seen := false
+	for k := 0; k < l.n; k++ {
+		if r.bands[k] >= 0 {
+			if seen && start >= 0 && k-start > maxGap {
+				for j := start; j < k; j++ {
+					bare[j] = true
+				}
+			}
+			seen, start = true, -1
+			continue
+		}
+		if seen && start < 0 {
+			start = k
+		}
+	}
+	return bare
 }
 
 // followPoints moves the detection's points (input pixels, from the

@@ -481,3 +481,81 @@ func TestLaneFollowPoints(t *testing.T) {
 		t.Errorf("followed points miss the S by %.2f px, want ≤ 1", worst)
 	}
 }
+
+func TestLaneBandCentreBareBoundary(t *testing.T) {
+	// Two boundaries in the image on a flat floor seen from above (image
+	// and floor alike: horizontal offsets are floor offsets): the left one
+	// seen in every band at x = 100, the right one at x = 200 seen in the
+	// near 20 bands only, its fit bent to 170 at the far end by a few far
+	// inliers on another line. The lane is 100 px wide.
+	l := bandLayout{x0: 0, x1: 320, y0: 0, y1: 240, step: 3, n: 80}
+	y0, sc := float64(l.y1), float64(l.y1-l.y0)
+	straight := func(x float64) curve { return curve{a: x, y0: y0, scale: sc} }
+	left := &fitResult{ok: true, centre: straight(100), yLo: 0, yHi: 240, bands: make([]int, l.n)}
+	bent := curve{a: 200, c: -30, y0: y0, scale: sc} // 200 near, 170 at the top
+	tests := map[string]struct {
+		support func(k int) bool // the right boundary's supporting bands
+		noFloor bool
+		wantX   func(k int) float64
+	}{
+		"far inliers across a long bare stretch: the centre from the left boundary there": {
+			support: func(k int) bool { return k < 20 || k >= 77 },
+			wantX: func(k int) float64 {
+				if k < 20 || k >= 77 {
+					return (100 + bent.x(l.centre(k))) / 2
+				}
+				return 150
+			},
+		},
+		"the same without a floor: midway": {
+			support: func(k int) bool { return k < 20 || k >= 77 },
+			noFloor: true,
+			wantX:   func(k int) float64 { return (100 + bent.x(l.centre(k))) / 2 },
+		},
+		"a short gap is crossed: midway": {
+			support: func(k int) bool { return k < 20 || k > 22 },
+			wantX:   func(k int) float64 { return (100 + bent.x(l.centre(k))) / 2 },
+		},
+		"dashes (gaps of their own) are crossed: midway": {
+			support: func(k int) bool { return k%12 < 6 },
+			wantX:   func(k int) float64 { return (100 + bent.x(l.centre(k))) / 2 },
+		},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			ln := &Lane{width: make([]float64, l.n), turn: [2][]float64{make([]float64, l.n), make([]float64, l.n)}}
+			for k := range ln.width {
+				ln.width[k] = 100
+			}
+			right := &fitResult{ok: true, centre: bent, yLo: 0, yHi: 240, bands: make([]int, l.n)}
+			for k := 0; k < l.n; k++ {
+				right.bands[k] = -1
+				if tc.support(k) {
+					right.bands[k] = 0
+				}
+			}
+			var fl laneFloor = topDown{h: 240}
+			if tc.noFloor {
+				fl = nil
+			}
+			if _, ok := ln.bandCentre(l, left, right, fl, 100, !tc.noFloor); !ok {
+				t.Fatal("no centre")
+			}
+			if len(ln.cpts) != l.n {
+				t.Fatalf("%d centre points, want one per band (%d)", len(ln.cpts), l.n)
+			}
+			for k, p := range ln.cpts {
+				if want := tc.wantX(k); math.Abs(p[0]-want) > 0.01 {
+					t.Errorf("band %d (row %.1f): centre at %.2f, want %.2f", k, p[1], p[0], want)
+				}
+			}
+		})
+	}
+}
+
+// topDown is a floor seen straight from above, h rows high: image columns
+// are floor X, rows run forward from the bottom (Z = h − y).
+type topDown struct{ h float64 }
+
+func (f topDown) toFloor(x, y float64) (X, Z float64, ok bool) { return x, f.h - y, true }
+func (f topDown) toImage(X, Z float64) (x, y float64, ok bool) { return X, f.h - Z, true }

@@ -578,13 +578,15 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 		// where its near half's width runs out, are not on the floor
 		// (rack uprights, door frames and people standing on the line's
 		// far end seen by a low camera) and drop out.
-		if yh, ok := c.nearHorizon(res, l); c.ownHorizon && ok {
-			for k, i := range res.bands {
-				if i >= 0 && c.offFloor(c.cands[i], yh, l) {
-					res.bands[k] = -1
+		if c.ownHorizon {
+			if yh, ok := c.nearHorizon(res, l); ok {
+				for k, i := range res.bands {
+					if i >= 0 && c.offFloor(c.cands[i], yh, l) {
+						res.bands[k] = -1
+					}
 				}
+				res.yh = yh
 			}
-			res.yh = yh
 		}
 		// Centre: weighted quadratic (no damping of c: t and t² are nearly collinear over a short span, so any damping would straighten real curves).
 		var A [3][3]float64

@@ -43,6 +43,7 @@ const (
 	reachWindow     = 300 * time.Millisecond
 	reachMinSamples = 3
 	reachSlackPx    = 2.0
+	reachJumpPx     = 40.0
 )
 
 type reachSample struct {
@@ -76,10 +77,21 @@ func (r *reachTrack) add(now time.Duration, m Measurement) {
 // reach has been falling over the recent samples, and whether it has
 // been falling steadily (see the constants' comment), with slack the
 // jitter allowed per sample in rows (reachSlackPx at the frame's size).
-func (r *reachTrack) shrinking(now time.Duration, slack float64) (rate float64, last reachSample, ok bool) {
+func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate float64, last reachSample, ok bool) {
 	i0 := 0
 	for i0 < len(r.s) && now-r.s[i0].t > reachWindow {
 		i0++
+	}
+	// A line's end comes down the image continuously; a drop by more
+	// than reachJumpPx between samples is the measurement changing what
+	// it measures (the fitted line's far end, then its near mark's end
+	// when a gap beyond that mark comes into view): the trend starts
+	// after it.
+	for i := len(r.s) - 1; i > i0; i-- {
+		if r.s[i].reach < r.s[i-1].reach-jump {
+			i0 = i
+			break
+		}
 	}
 	recent := r.s[i0:]
 	if len(recent) < reachMinSamples {
@@ -101,7 +113,7 @@ func (r *reachTrack) shrinking(now time.Duration, slack float64) (rate float64, 
 // lineEnded says whether, with m unusable at now, the line is seen to
 // have ended, and why.
 func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
-	rate, last, ok := t.reach.shrinking(now, reachSlackPx*t.pxScale)
+	rate, last, ok := t.reach.shrinking(now, reachSlackPx*t.pxScale, reachJumpPx*t.pxScale)
 	if !ok {
 		return "", false
 	}

@@ -67,6 +67,32 @@ func TestSeeingTheLineEnd(t *testing.T) {
 			},
 			wantLost: -1, noneLostB: 12,
 		},
+		"the near mark's end takes over from the fitted far end, then runs out": {
+			// A gap too long to bridge comes into view beyond the near
+			// mark: the reach drops from the fitted line's far end (200)
+			// to the mark's end (66), which then comes down 12 rows a
+			// frame until the mark is no longer found.
+			after: func(i int) guidance.Measurement {
+				if i < 6 {
+					return reaching(66 - 12*float64(i))
+				}
+				return guidance.Measurement{}
+			},
+			// last reach 6 at index 5, falling 364 rows/s: below 0 at index 6
+			wantLost: 6, noneLostB: 6, wantNote: "far end running out",
+		},
+		"a sudden drop of the reach is no trend of its own": {
+			// A drop from 200 to 90 and the line gone in the next
+			// frames: the drop is the measurement changing what it
+			// measures, not an end seen coming; coasting as before.
+			after: func(i int) guidance.Measurement {
+				if i == 0 {
+					return reaching(90)
+				}
+				return guidance.Measurement{}
+			},
+			wantLost: -1, noneLostB: 9,
+		},
 		"one short detection in a steady line is refused, not an alarm": {
 			after: func(i int) guidance.Measurement {
 				if i == 2 {

@@ -617,6 +617,11 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	// judged as any line across a gap (bridges, the gaps factor).
 	if top, gap, ok := c.nearMarkEnd(r, l); ok && gap > reach && top < yRefW {
 		fs = append(fs, factor{clamp01((yRefW - top) / (0.1 * roiH)), "line ends just beyond the reference row"})
+		// The guidance reach is the near mark's: frame by frame its end
+		// comes down to the reference row, and when the mark is gone the
+		// tracker knows the line ended rather than coasting over it as
+		// over an unreadable frame (guidance/reach.go).
+		d.ReachPx, d.HasReach = (yRefW-top)/fr.sy, true
 	}
 	if hint.Valid {
 		if !fromPrior {

@@ -29,6 +29,16 @@ type Detection struct {
 	// Reason says, when Found is false or Confidence is low, why
 	// ("no candidates", "too few rows", "poor fit", ...).
 	Reason string
+	// ReachPx, when HasReach is true, is how far, in image rows, the
+	// stripe is seen continuously from its near end beyond RefRow (for
+	// guidance.Measurement.ReachPx). The classical detector reports it
+	// when the near mark ends just beyond RefRow before an unseen stretch
+	// too long to bridge (a missing stretch of tape arriving): its fitted
+	// Points then run on across that stretch to the line beyond it, and
+	// their far end says nothing about the line ending under the camera.
+	// Otherwise HasReach is false and the reach is the Points' far end.
+	ReachPx  float64
+	HasReach bool
 	// Lane is set by the lane detector: the two boundaries and the
 	// lane's width. Points, OffsetPx and HeadingDeg are then the lane's
 	// centre, and WidthPx the boundaries' mean line width. Nil in stripe

@@ -193,14 +193,22 @@ func TestIsoluminantColourTape(t *testing.T) {
 // least half the rows of the lower half of the frame): stubs up to rows
 // 0.79 and 0.77 cover 42 % and 46 % of it, the long one 80 %. At every
 // frame size: the mechanism is in fractions of the region, not pixels.
+//
+// Where the near stretch ends before the missing one, the detection's
+// reach (Detection.ReachPx, for the tracker's end-of-line rule) is that
+// stretch's end, not the far end of the fitted line that runs on across
+// the gap. A gap shorter than half the measured span (the long near
+// stretch's) and a dashed line's gaps are bridged and report no reach of
+// their own.
 func TestNearStretchEnding(t *testing.T) {
 	tests := map[string]struct {
 		gap                  [2]float64
 		dashPeriod, dashDuty float64
 		trusted              bool
+		ownReach             bool // the near stretch's end is the reach
 	}{
-		"near stretch ends at the reference row":   {gap: [2]float64{0.2, 0.79}},
-		"near stretch ends a little above it":      {gap: [2]float64{0.2, 0.77}},
+		"near stretch ends at the reference row":   {gap: [2]float64{0.2, 0.79}, ownReach: true},
+		"near stretch ends a little above it":      {gap: [2]float64{0.2, 0.77}, ownReach: true},
 		"near stretch reaches well beyond":         {gap: [2]float64{0.2, 0.6}, trusted: true},
 		"dashed, a dash ends at the reference row": {dashPeriod: 0.2, dashDuty: 0.5, trusted: true},
 	}
@@ -225,6 +233,18 @@ func TestNearStretchEnding(t *testing.T) {
 				}
 				if trusted && math.Abs(d.OffsetPx-(s.truthAt(d.RefRow)-float64(s.w)/2)) > 0.015*float64(s.w) {
 					t.Errorf("offset off the truth by more than 1.5 %% of the width")
+				}
+				h := float64(sz[1])
+				switch {
+				case tc.ownReach:
+					// the stretch's end, within 4 % of the height (a band
+					// and a half at the default band count)
+					want := d.RefRow - tc.gap[1]*h
+					if !d.HasReach || math.Abs(d.ReachPx-want) > 0.04*h {
+						t.Errorf("reach %.1f (reported %v), want the near stretch's end %.1f rows past the reference row", d.ReachPx, d.HasReach, want)
+					}
+				case d.HasReach:
+					t.Errorf("reach %.1f of the near stretch reported across a gap that is bridged", d.ReachPx)
 				}
 			})
 		}

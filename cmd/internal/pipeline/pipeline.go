@@ -437,6 +437,10 @@ func reach(d vision.Detection) (rows float64, ok bool) {
 		// lane detector measures the reach from the lines' support
 		return d.Lane.ReachPx, true
 	}
+	if d.HasReach {
+		// the near mark's end, ahead of a stretch too long to bridge
+		return d.ReachPx, true
+	}
 	top := d.Points[0].Y
 	for _, p := range d.Points[1:] {
 		top = math.Min(top, p.Y)

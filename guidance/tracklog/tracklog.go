@@ -63,6 +63,12 @@ type Record struct {
 	// below 0.5 (the weakest of its confidence factors: "short line",
 	// "saturated (glare or reflection)", ...).
 	MeasReason      string   `json:"meas_reason,omitempty"`
+	// ReachPx is how far the measured line is seen beyond the reference
+	// row toward the far end, in image rows (negative: it ends short of
+	// the row), as the tracker's end-of-line rule took it: the fitted
+	// line's far end, or the near mark's end ahead of a stretch too long
+	// to bridge, or in lane mode the boundaries' support.
+	ReachPx *float64 `json:"reach_px,omitempty"`
 	OffsetMM        *float64 `json:"offset_mm,omitempty"`
 	HeadingFloorDeg *float64 `json:"heading_floor_deg,omitempty"`
 	WidthMM         *float64 `json:"width_mm,omitempty"`
@@ -185,6 +191,9 @@ func (w *Writer) Write(r *Record) error {
 	}
 	if r.MeasReason != "" {
 		e = e.Str("meas_reason", r.MeasReason)
+	}
+	if r.ReachPx != nil {
+		e = e.Float64("reach_px", r3(*r.ReachPx))
 	}
 	if len(r.PredictedPoints) > 0 {
 		w.pred = appendPoints(w.pred[:0], r.PredictedPoints)

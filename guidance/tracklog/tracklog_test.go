@@ -22,6 +22,10 @@ func sample(t *testing.T) []byte {
 	for i := 0; i < 5; i++ {
 		r := tracklog.Record{Frame: i, T: float64(i) / 30, Tracking: i < 3, Alarm: i >= 3, Confidence: 0.9, State: "holding",
 			Points: [][2]float64{{320.04, 479}, {321, 400}}, OffsetPx: 1.23456, Method: "classical"}
+		if i == 1 {
+			reach := -12.34567 // ends short of the reference row
+			r.ReachPx = &reach
+		}
 		if err := w.Write(&r); err != nil {
 			t.Fatal(err)
 		}
@@ -46,6 +50,12 @@ func TestRoundTrip(t *testing.T) {
 	}
 	if l.Records[0].OffsetPx != 1.235 || l.Records[0].Points[0] != [2]float64{320, 479} {
 		t.Errorf("record 0: %+v", l.Records[0])
+	}
+	if r := l.Records[1].ReachPx; r == nil || *r != -12.346 {
+		t.Errorf("record 1: reach_px %v, want -12.346", r)
+	}
+	if l.Records[0].ReachPx != nil {
+		t.Errorf("record 0: reach_px %v, want none (not reported)", *l.Records[0].ReachPx)
 	}
 	if strings.Contains(strings.SplitN(string(b), "\n", 2)[0], `"frame"`) {
 		t.Error("header has a frame field")

@@ -68,6 +68,9 @@ func (s *LogSink) Frame(r *Result, _ gocv.Mat) error {
 		m := r.Det.OffsetPx
 		rec.MeasOffsetPx = &m
 		rec.MeasReason = r.Det.Reason
+		if rows, ok := reach(r.Det); ok {
+			rec.ReachPx = &rows
+		}
 		if ln := r.Det.Lane; ln != nil {
 			if len(ln.Left) > 0 {
 				s.left = points(s.left, ln.Left)

@@ -28,6 +28,14 @@ import (
 //   - no measurement comes, and the shrinking reach, extrapolated to now,
 //     has passed the reference row.
 //
+// Ahead of a missing stretch too long to bridge, the stripe detector's
+// fitted line runs on across it to the tape beyond, so it reports the
+// near mark's end as the reach instead (vision.Detection.ReachPx). The
+// reach then drops at once from the fitted far end to the mark's end: a
+// drop of more than reachJumpPx (at RefWidthPx) between two samples is
+// the measurement changing what it measures, not a speed, and the trend
+// starts after it.
+//
 // "Shrinking" needs reachMinSamples accepted measurements within
 // reachWindow, each no farther than the one before (within reachSlackPx
 // rows, for the detector's jitter) and the last clearly shorter than the
@@ -82,11 +90,7 @@ func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate flo
 	for i0 < len(r.s) && now-r.s[i0].t > reachWindow {
 		i0++
 	}
-	// A line's end comes down the image continuously; a drop by more
-	// than reachJumpPx between samples is the measurement changing what
-	// it measures (the fitted line's far end, then its near mark's end
-	// when a gap beyond that mark comes into view): the trend starts
-	// after it.
+	// The trend starts after the latest jump (see the constants' comment).
 	for i := len(r.s) - 1; i > i0; i-- {
 		if r.s[i].reach < r.s[i-1].reach-jump {
 			i0 = i

@@ -62,13 +62,13 @@ type Record struct {
 	// MeasReason is the detector's own word on a line it found but rates
 	// below 0.5 (the weakest of its confidence factors: "short line",
 	// "saturated (glare or reflection)", ...).
-	MeasReason      string   `json:"meas_reason,omitempty"`
+	MeasReason string `json:"meas_reason,omitempty"`
 	// ReachPx is how far the measured line is seen beyond the reference
 	// row toward the far end, in image rows (negative: it ends short of
 	// the row), as the tracker's end-of-line rule took it: the fitted
 	// line's far end, or the near mark's end ahead of a stretch too long
 	// to bridge, or in lane mode the boundaries' support.
-	ReachPx *float64 `json:"reach_px,omitempty"`
+	ReachPx         *float64 `json:"reach_px,omitempty"`
 	OffsetMM        *float64 `json:"offset_mm,omitempty"`
 	HeadingFloorDeg *float64 `json:"heading_floor_deg,omitempty"`
 	WidthMM         *float64 `json:"width_mm,omitempty"`

@@ -110,7 +110,14 @@ type Classical struct {
 	// boundaries' far widths do not follow the pinhole's (lane-fisheye at
 	// 320×240 lost 3 frames with it).
 	ownHorizon bool
-	closed     bool
+	// tangentEnds: a refit is judged plausible over its inliers' rows
+	// (plausibleOver) as well as over the whole ROI, since beyond its
+	// measured stretch a stripe is run out along its end tangents. Off
+	// in lane mode, which reads the boundary curves over the whole ROI
+	// (lane-s-curve at 320×240 fell from 0.927 to 0.547 recall with it).
+	tangentEnds bool
+	dashes      dashMemory // the last dashed line's gap, for single dashes
+	closed      bool
 }
 
 // NewClassical returns a detector for cfg, or the error from cfg.Validate.
@@ -118,7 +125,7 @@ func NewClassical(cfg Config) (*Classical, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, err
 	}
-	c := &Classical{cfg: cfg, ownHorizon: true}
+	c := &Classical{cfg: cfg, ownHorizon: true, tangentEnds: true}
 	colour, ok, _ := ParseTapeColour(cfg.TapeColour)
 	if ok {
 		c.tape, c.hasTape = colour, true
@@ -151,10 +158,18 @@ func notFound(reason string) Detection {
 // (CV_8UC1) and BGRA (CV_8UC4) frames are accepted too. It does not retain
 // img. An empty, closed, unsupported, too small or too large frame gives
 // Found=false with the reason; OpenCV is never called on it.
+//
+// Detect keeps two short memories from frame to frame, both dropped on a
+// frame it cannot use: the last frame's clipped pixels, to tell a
+// mirrored lamp by its motion (mirror.go), and the gap of the last
+// dashed line chosen, so that a frame showing a single dash is bridged
+// like the pattern it belongs to (dashmem.go). Use a new detector for
+// each clip.
 func (c *Classical) Detect(img gocv.Mat, hint Hint) Detection {
 	fr, why := c.load(img)
 	if why != "" {
 		c.mirror.forget()
+		c.dashes.forget()
 		return notFound(why)
 	}
 	return c.detect(fr, hint)

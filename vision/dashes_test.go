@@ -187,8 +187,15 @@ func sBend(k1, k2, d1 float64) func(d float64) float64 {
 // of its own), and two marks without a prior. On a bend of 10 m radius,
 // and on an S-bend (5 m right up to just past the nearest dash, 5 m left
 // beyond: the curve through every mark and the nearest dash's straight
-// line agree with each other 10 px off the line), it is run out within
-// half the agreement required.
+// line agree with each other 10 px off the line), and on a bend of 4 m
+// radius (the nearest dash's bend and the curve through every mark
+// agree, the straight bounds do not), it is run out within half the
+// agreement required. A single 1 m dash beyond the reference row is run
+// out with a prior on the line when the dashed pattern was seen on an
+// earlier frame (its remembered gap stands in for the one a single dash
+// cannot show), and is refused with nothing remembered, without a
+// prior, after a solid line, and when the unseen stretch is longer than
+// the remembered gap.
 func TestBridgeRules(t *testing.T) {
 	const (
 		w, h    = 320, 240
@@ -215,6 +222,9 @@ func TestBridgeRules(t *testing.T) {
 	yRefIn := cfg.RefRow * h
 	_, _, dRef, _ := geom(yRefIn)
 	dashed := func(d float64) bool { return math.Mod(d-dRef+0.3, 1.2) >= 0.7 } // the gap spans dRef−0.3 … dRef+0.4
+	oneDash := func(d float64) bool { return d >= dRef+0.4 && d <= dRef+1.4 }  // 1 m, just beyond the gap at the vehicle
+	farDash := func(d float64) bool { return d >= dRef+1.3 && d <= dRef+2.8 }  // 1.5 m, beyond 1.6 m unseen
+	solid := func(d float64) bool { return true }
 	tests := map[string]struct {
 		laid      func(d float64) bool
 		noPrior   bool
@@ -225,16 +235,17 @@ func TestBridgeRules(t *testing.T) {
 		// 1 px); on a bend half the agreement required (2.4 px at 320)
 		// and the half pixel between the candidates' working and the
 		// reported input coordinates.
-		tolPx float64
+		tolPx  float64
+		before func(d float64) bool // an earlier frame's marking, fitted and remembered (nil: none)
 	}{
-		"dashes, prior on the line":    {dashed, false, 0, true, nil, 0},
-		"dashes, no prior":             {dashed, true, 0, true, nil, 0},
-		"dashes, prior 20 px off":      {dashed, false, 20, false, nil, 0},
-		"missing stretch of 1.9 m":     {func(d float64) bool { return d > dRef+1.6 && dashed(d) }, false, 0, false, nil, 0},
-		"missing stretch, no prior":    {func(d float64) bool { return d > dRef+1.6 && dashed(d) }, true, 0, false, nil, 0},
-		"solid line resuming ahead":    {func(d float64) bool { return d > dRef+0.4 }, false, 0, false, nil, 0},
-		"two marks, prior on the line": {func(d float64) bool { return d < dRef+2.8 && dashed(d) }, false, 0, true, nil, 0},
-		"two marks, no prior":          {func(d float64) bool { return d < dRef+2.8 && dashed(d) }, true, 0, false, nil, 0},
+		"dashes, prior on the line":    {dashed, false, 0, true, nil, 0, nil},
+		"dashes, no prior":             {dashed, true, 0, true, nil, 0, nil},
+		"dashes, prior 20 px off":      {dashed, false, 20, false, nil, 0, nil},
+		"missing stretch of 1.9 m":     {func(d float64) bool { return d > dRef+1.6 && dashed(d) }, false, 0, false, nil, 0, nil},
+		"missing stretch, no prior":    {func(d float64) bool { return d > dRef+1.6 && dashed(d) }, true, 0, false, nil, 0, nil},
+		"solid line resuming ahead":    {func(d float64) bool { return d > dRef+0.4 }, false, 0, false, nil, 0, nil},
+		"two marks, prior on the line": {func(d float64) bool { return d < dRef+2.8 && dashed(d) }, false, 0, true, nil, 0, nil},
+		"two marks, no prior":          {func(d float64) bool { return d < dRef+2.8 && dashed(d) }, true, 0, false, nil, 0, nil},
 		// A bend of 10 m radius from the vehicle on (D²/2R): every mark
 		// and the nearest ones show it.
 		"dashes on a 10 m bend, prior on it": {laid: dashed, wantBridg: true, bend: func(d float64) float64 { return d * d / 20 }, tolPx: 2.9},
@@ -244,6 +255,15 @@ func TestBridgeRules(t *testing.T) {
 		// nearest dash's straight line misses its bend; the bounds from
 		// the nearest marks' own bend hold it.
 		"dashes, S-bend beyond the near marks": {laid: dashed, wantBridg: true, bend: sBend(1/5.0, -1/5.0, dRef+1.0), tolPx: 2.9},
+		// A bend of 4 m radius: the straight line through the nearest
+		// dash and its tangent both miss the bend at the vehicle; the
+		// nearest dash's bend kept and every mark's agree.
+		"dashes on a 4 m bend, prior on it":                 {laid: dashed, wantBridg: true, bend: func(d float64) float64 { return d * d / 8 }, tolPx: 2.9},
+		"one dash, pattern remembered, prior on the line":   {laid: oneDash, before: dashed, wantBridg: true},
+		"one dash, nothing remembered":                      {laid: oneDash},
+		"one dash, pattern remembered, no prior":            {laid: oneDash, before: dashed, noPrior: true},
+		"one dash after a long stretch, pattern remembered": {laid: farDash, before: dashed},
+		"one dash, solid line seen before":                  {laid: oneDash, before: solid},
 	}
 	for name, tc := range tests {
 		t.Run(name, func(t *testing.T) {
@@ -255,19 +275,31 @@ func TestBridgeRules(t *testing.T) {
 			c.hairline = 0.006 * w
 			l := bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
 			byBand := make([][2]int, l.n)
-			for k := 0; k < l.n; k++ {
-				lo := len(c.cands)
-				if x, wd, d, ok := geomK(l.centre(k), tc.bend); ok && tc.laid(d) {
-					c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: x, w: wd, contrast: 0.3, snr: 20})
+			// lay puts a crossing of the marking laid at d in each band
+			// and fits the line through them.
+			lay := func(laid func(d float64) bool) *fitResult {
+				c.cands = c.cands[:0]
+				for k := 0; k < l.n; k++ {
+					lo := len(c.cands)
+					if x, wd, d, ok := geomK(l.centre(k), tc.bend); ok && laid(d) {
+						c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: x, w: wd, contrast: 0.3, snr: 20})
+					}
+					byBand[k] = [2]int{lo, len(c.cands)}
 				}
-				byBand[k] = [2]int{lo, len(c.cands)}
+				c.rng = frameSeed
+				r := c.ransac(l, w, byBand, selector{}, 0)
+				if !c.acceptable(r, l) {
+					t.Fatalf("no acceptable line (%d candidates)", len(c.cands))
+				}
+				return r
 			}
-			c.rng = frameSeed
-			r := c.ransac(l, w, byBand, selector{}, 0)
+			if tc.before != nil {
+				c.dashes.see(lay(tc.before), l)
+				c.dashes.age()
+				t.Logf("earlier frame: remembered %v, gap %.3g (floor units)", c.dashes.ok, c.dashes.gap)
+			}
+			r := lay(tc.laid)
 			fr := frameGeom{inW: w, inH: h, sx: 1, sy: 1, ww: w, wh: h}
-			if !c.acceptable(r, l) {
-				t.Fatalf("no acceptable line (%d candidates)", len(c.cands))
-			}
 			yRefW := fr.toWorkY(yRefIn)
 			// Heading of the line at the reference row, from the geometry.
 			xRef, _, _, _ := geomK(yRefIn, tc.bend)

@@ -10,9 +10,11 @@ import (
 const frameSeed = 0x9E3779B97F4A7C15
 
 func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
+	c.dashes.age()
 	l, byBand, wantLight, wantDark, why := c.extract(fr)
 	if why != "" {
 		c.mirror.forget()
+		c.dashes.forget()
 		return notFound(why)
 	}
 	// streaks of clipped pixels that do not move with the floor are
@@ -60,6 +62,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 	if chosen == nil {
 		return notFound(c.whyNot(l))
 	}
+	c.dashes.see(chosen, l)
 
 	// Ambiguity: the best other line, drawn from candidates off the chosen
 	// one, under the same gate as the chosen line. It is compared with the
@@ -150,56 +153,70 @@ const bridgeFactor = 0.75
 // between its near end and the reference row: a dashed or dotted line
 // whose nearest mark lies beyond the reference row (a dash gap at the
 // vehicle). All of these must hold:
-//   - the line is a row of marks: at least three of them (runs of two or
-//     more bands) with gaps of their own (see dashed), so the unseen
-//     stretch is most likely one more gap of a pattern seen twice; with a
-//     prediction (hint valid) that the line must also agree with (below),
-//     two marks;
+//   - the line is a row of marks with a gap to judge the unseen stretch
+//     by: at least three marks (runs of two or more bands) with gaps of
+//     their own (see dashed), so the unseen stretch is most likely one
+//     more gap of a pattern seen twice; with a prediction (hint valid)
+//     that the line must also agree with (below), two marks; and with a
+//     prediction, a single mark when a dashed line was chosen on a recent
+//     frame (see dashMemory): its remembered gap stands in for the one
+//     the single dash cannot show (a wide or low camera sees one dash at
+//     a time);
 //   - the unseen stretch, measured along the floor (see floorLen), is no
-//     longer than the longest gap seen between the line's marks: a
-//     missing stretch of the marking, or a line that resumes after one,
-//     is longer and is not bridged (the fail-safe must sound there);
+//     longer than that gap: a missing stretch of the marking, or a line
+//     that resumes after one, is longer and is not bridged (the
+//     fail-safe must sound there);
 //   - two estimates of the unseen stretch agree within 1.5 % of the
-//     width at the reference row (the scoring tolerance, 10 px at 640),
-//     either (a) the straight line through the nearest marks alone (see
-//     nearMarksTop and nearLine; over at least 15 % of the ROI height,
-//     the RANSAC sample spread) and the perspective curve through every
-//     mark (see perspLine: a bend of constant curvature on the floor),
-//     the line run out along that curve's tangent at the reference row;
-//     or (b) two bounds from the perspective curve through the nearest
-//     marks alone: the bend those marks show kept up to the reference
-//     row, and the line straightening where they end (the curve's
-//     tangent at the near end). A path whose bend neither grows nor
-//     turns back over the unseen stretch lies between the two; the line
-//     is run out straight through their middle at the reference row,
-//     with the mean of their slopes there. (b) holds where the bend
-//     changes beyond the near marks (a weaving cart, an S-bend: the far
-//     marks tilt a curve through every mark at the vehicle), (a) where
-//     the near marks are too few or too short to show a bend of their
-//     own (dots); (a) is tried first, then (b). Where neither holds (a
-//     bend seen at the near marks and an unseen stretch too long for it)
-//     the stretch stays unseen. The run-out must lie inside the region
-//     of interest;
-//   - with a prediction (hint valid), the run-out (of (a), else of (b))
-//     agrees with it in offset and heading at the reference row: the
-//     squared distance in units of the prediction's σ (which holds the
-//     measurement noise, see Hint) is within the χ² 2-DOF 99 % quantile 9.21, the tracker's
+//     width at the reference row (the scoring tolerance, 10 px at 640).
+//     The nearest marks are those from the near end up to 15 % of the
+//     ROI height (see nearMarksTop; the RANSAC sample spread). Three
+//     pairs are tried:
+//     (a) the straight line through the nearest marks alone (nearLine)
+//     and the perspective curve through every mark (perspLine: a bend of
+//     constant curvature on the floor), run out along that curve; this
+//     holds where the near marks are too few or too short to show a bend
+//     of their own (dots);
+//     (b) two bounds from the perspective curve through the nearest
+//     marks alone: their bend kept up to the reference row, and the line
+//     straightening where they end (the curve's tangent at the near
+//     end). A path whose bend neither grows nor turns back over the
+//     unseen stretch lies between the two; the run-out goes straight
+//     through their middle at the reference row, with the mean of their
+//     slopes. This holds where the bend changes beyond the near marks (a
+//     weaving cart, an S-bend: the far marks tilt a curve through every
+//     mark at the vehicle);
+//     (c) where there are marks beyond the nearest ones, the nearest
+//     marks' bend kept (as in (b)) and the perspective curve through
+//     every mark (as in (a)), through the middle of the two: a steady
+//     bend, seen at the near marks and confirmed by the far ones, over
+//     an unseen stretch too long for the straight bounds of (a) and (b)
+//     to agree across.
+//     Of the pairs that agree, the one whose estimates land closest
+//     together is taken. Where none agrees the stretch stays unseen. The
+//     run-out must lie inside the region of interest;
+//   - with a prediction (hint valid), the run-out agrees with it in
+//     offset and heading at the reference row: the squared distance in
+//     units of the prediction's σ (which holds the measurement noise,
+//     see Hint) is within the χ² 2-DOF 99 % quantile 9.21, the tracker's
 //     own gate, so a bridged measurement never steps the track. The
 //     offset and heading measured are the image's, not the prior's.
 //
 // On success r is marked bridged, its line beyond yHi is the run-out,
 // and r.bridgeSpread is how far apart the estimates land at the
-// reference row (for (a) with the fitted curve's own tangent), in units
-// of the agreement required (report lowers the confidence with it).
+// reference row (for (a) with the fitted curve's own tangent too), in
+// units of the agreement required (report lowers the confidence with
+// it).
 func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint, yRefW float64) bool {
-	marks := 3
-	if hint.Valid {
-		marks = 2
-	}
-	if r == nil || !r.ok || yRefW <= r.yHi || r.marks(2) < marks || !r.dashed(l) {
+	if r == nil || !r.ok || yRefW <= r.yHi {
 		return false
 	}
-	gap := r.longestGap(l)
+	gap := 0.0
+	switch m := r.marks(2); {
+	case r.dashed(l) && (m >= 3 || (m >= 2 && hint.Valid)):
+		gap = r.longestGap(l)
+	case hint.Valid && m == 1 && c.dashes.ok:
+		gap = c.dashes.gap
+	}
 	if gap <= 0 || r.floorLen(r.yHi+float64(l.step)/2, yRefW) > gap {
 		return false
 	}
@@ -208,27 +225,49 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 		return false
 	}
 	tol := 0.015 * float64(fr.ww)
+	type runout struct{ x, s, spread float64 }
+	var est [3]runout
+	n := 0
+	all, okAll := c.perspLine(r, l, math.Inf(-1))
+	near, okNear := c.perspLine(r, l, yTop)
 	// (a) Every mark on one bend, the nearest marks' straight line
 	// agreeing.
-	if x0, s0, ok := c.nearLine(r, l, yTop); ok {
-		if pc, ok := c.perspLine(r, l, math.Inf(-1)); ok {
-			xa, sa := pc.x(yRefW), pc.slope(yRefW)
-			xn, xt := x0+s0*(yRefW-r.yHi), r.xAt(yRefW)
+	if x0, s0, ok := c.nearLine(r, l, yTop); ok && okAll {
+		xa, sa := all.x(yRefW), all.slope(yRefW)
+		xn, xt := x0+s0*(yRefW-r.yHi), r.xAt(yRefW)
+		if math.Abs(xn-xa) <= tol {
 			spread := (math.Max(xn, math.Max(xa, xt)) - math.Min(xn, math.Min(xa, xt))) / tol
-			if math.Abs(xn-xa) <= tol && c.runOut(r, l, fr, hint, yRefW, xa, sa, spread) {
-				return true
+			est[n], n = runout{xa, sa, spread}, n+1
+		}
+	}
+	if okNear {
+		xb, sb := near.x(yRefW), near.slope(yRefW)
+		// (b) The nearest marks' bend kept, or ending where they end.
+		st := near.slope(r.yHi)
+		xs := near.x(r.yHi) + st*(yRefW-r.yHi)
+		if math.Abs(st) <= maxSlope && math.Abs(xb-xs) <= tol {
+			est[n], n = runout{(xb + xs) / 2, (sb + st) / 2, math.Abs(xb-xs) / tol}, n+1
+		}
+		// (c) The nearest marks' bend kept, and every mark's.
+		if okAll && r.yLo < yTop {
+			xa, sa := all.x(yRefW), all.slope(yRefW)
+			if math.Abs(xb-xa) <= tol {
+				est[n], n = runout{(xb + xa) / 2, (sb + sa) / 2, math.Abs(xb-xa) / tol}, n+1
 			}
 		}
 	}
-	// (b) The two bounds from the nearest marks' own bend: kept up to
-	// the reference row, or ending where the marks end.
-	if pc, ok := c.perspLine(r, l, yTop); ok {
-		xb, sb := pc.x(yRefW), pc.slope(yRefW)
-		st := pc.slope(r.yHi)
-		xs := pc.x(r.yHi) + st*(yRefW-r.yHi)
-		if math.Abs(st) <= maxSlope && math.Abs(xb-xs) <= tol && c.runOut(r, l, fr, hint, yRefW, (xb+xs)/2, (sb+st)/2, math.Abs(xb-xs)/tol) {
+	for n > 0 {
+		k := 0
+		for i := 1; i < n; i++ {
+			if est[i].spread < est[k].spread {
+				k = i
+			}
+		}
+		if c.runOut(r, l, fr, hint, yRefW, est[k].x, est[k].s, est[k].spread) {
 			return true
 		}
+		n--
+		est[k] = est[n]
 	}
 	return false
 }
@@ -624,7 +663,11 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		d.ReachPx, d.HasReach = (yRefW-top)/fr.sy, true
 	}
 	if hint.Valid {
-		if !fromPrior {
+		// A line found without the prior is far from the prediction,
+		// unless it was bridged: bridges holds its run-out to the
+		// prediction's gate (runOut) whichever fit found it, and it is
+		// judged by its distance as a line from the prior is.
+		if !fromPrior && !r.bridged {
 			fs = append(fs, factor{0.5, "far from the prediction"})
 		} else {
 			so := math.Max(hint.OffsetSigma, 0.02*fr.inW)

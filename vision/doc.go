@@ -24,7 +24,8 @@
 //     left out of the centre fit where the line has unclipped ones, and
 //     inliers above the line's own horizon (from its near widths) dropped.
 //     Dashed lines are run across a gap at the vehicle only under tested
-//     rules (bridges, in detect.go).
+//     rules (bridges, in detect.go); dashmem.go remembers a dashed
+//     line's gap for a few frames, for frames that show a single dash.
 //   - detect.go: the best line over the channels is chosen, compared with
 //     the strongest other line (ambiguity), and report turns it into a
 //     Detection whose confidence is the product of named factors; the

@@ -437,6 +437,28 @@ func plausible(q curve, l bandLayout) bool {
 	return math.Abs(math.Atan(s0)-math.Atan(s1)) <= 60*math.Pi/180
 }
 
+// plausibleOver is plausible judged over the rows of q's inliers (bands,
+// indices into cands, −1 for none) instead of the whole ROI: a refit
+// through a short stretch of a tight bend, or through marks at one end
+// of the region, may lean or bend beyond the limits when run out to the
+// ROI's far edge, where nothing was measured (see Classical.tangentEnds).
+func plausibleOver(q curve, bands []int, cands []candidate) bool {
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, i := range bands {
+		if i >= 0 {
+			lo, hi = math.Min(lo, cands[i].y), math.Max(hi, cands[i].y)
+		}
+	}
+	if lo >= hi {
+		return false
+	}
+	s0, s1 := q.slope(lo), q.slope(hi)
+	if math.Abs(s0) > maxSlope || math.Abs(s1) > maxSlope {
+		return false
+	}
+	return math.Abs(math.Atan(s0)-math.Atan(s1)) <= 60*math.Pi/180
+}
+
 // ransac finds the best-supported curve among the candidates accepted by
 // use. byBand gives each band's candidate index range.
 func (c *Classical) ransac(l bandLayout, ww int, byBand [][2]int, sel selector, slot int) *fitResult {
@@ -460,7 +482,7 @@ func (c *Classical) ransac(l bandLayout, ww int, byBand [][2]int, sel selector, 
 	y0 := float64(l.y1)
 	sc := float64(l.y1 - l.y0)
 	minSpread := 0.15 * sc
-	bestScore := 0.0
+	bestScore, bestN := 0.0, 0
 	for it := 0; it < c.cfg.Iterations; it++ {
 		i1 := f.idx[c.nextRand(len(f.idx))]
 		i2 := f.idx[c.nextRand(len(f.idx))]
@@ -489,9 +511,9 @@ func (c *Classical) ransac(l bandLayout, ww int, byBand [][2]int, sel selector, 
 		if !plausible(q, l) {
 			continue
 		}
-		s, _ := c.evaluate(q, l, ww, byBand, sel, trial)
+		s, n := c.evaluate(q, l, ww, byBand, sel, trial)
 		if s > bestScore {
-			bestScore = s
+			bestScore, bestN = s, n
 			res.centre = q
 			copy(best, trial)
 		}
@@ -500,6 +522,7 @@ func (c *Classical) ransac(l bandLayout, ww int, byBand [][2]int, sel selector, 
 		return res
 	}
 	res.bands = append(res.bands[:0], best...)
+	res.score, res.inliers = bestScore, bestN
 	c.refine(res, l, ww, byBand, sel)
 	return res
 }
@@ -626,7 +649,16 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 			return
 		}
 		q := curve{a: sol[0], b: sol[1], c: sol[2], y0: y0, scale: sc}
-		if !plausible(q, l) {
+		// A refit is judged over the whole ROI, or (tangentEnds) over its
+		// inliers' rows only, since beyond them the line is run out along
+		// its end tangents (fitResult.xAt). An implausible first refit
+		// refuses the line: its inliers were collected for the sampled
+		// curve, not for one through them. A later one keeps the last.
+		if !plausible(q, l) && !(c.tangentEnds && plausibleOver(q, res.bands, c.cands)) {
+			if pass == 0 {
+				res.ok = false
+				return
+			}
 			break
 		}
 		res.centre = q

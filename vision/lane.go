@@ -171,7 +171,8 @@ func NewLane(cfg Config, lc LaneConfig) (*Lane, error) {
 	if err != nil {
 		return nil, err
 	}
-	c.ownHorizon = false // see Classical.ownHorizon
+	c.ownHorizon = false  // see Classical.ownHorizon
+	c.tangentEnds = false // see Classical.tangentEnds
 	return &Lane{c: c, lc: lc}, nil
 }
 

@@ -29,7 +29,7 @@ func TestNearHorizonPinhole(t *testing.T) {
 		if d <= 0.08 || d > 30 {
 			return 0, 0, false
 		}
-		return cx + f*(-0.3+0.1*d)/zc, f * stripeW / zc, true
+		return cx + f*(-0.02+0.1*d)/zc, f * stripeW / zc, true
 	}
 	c, err := NewClassical(DefaultConfig())
 	if err != nil {
@@ -60,6 +60,7 @@ func TestNearHorizonPinhole(t *testing.T) {
 			r.bands[k] = byBand[k][0]
 		}
 	}
+	c.primeScores(w)
 	c.refine(r, l, w, byBand, selector{})
 	if !r.ok {
 		t.Fatal("no fit")

@@ -323,6 +323,16 @@ func TestBridgeRules(t *testing.T) {
 				if e := fr.toInX(r.xAt(yRefW)) - xRef; math.Abs(e) > tol {
 					t.Errorf("run out to %.2f px at the reference row, truth %.2f", fr.toInX(r.xAt(yRefW)), xRef)
 				}
+				// A bridged line on the prediction is held by the
+				// tracker (guidance's MinConfidence, 0.5): a short dash
+				// is judged over the rows it guides over.
+				if !tc.noPrior && tc.priorOff == 0 && tc.bend == nil {
+					d := c.report(fr, l, r, false, true, 0, hint, yRefIn, yRefW)
+					t.Logf("reported confidence %.2f (%s)", d.Confidence, d.Reason)
+					if d.Confidence < 0.5 {
+						t.Errorf("confidence %.2f (%s), want at least 0.5", d.Confidence, d.Reason)
+					}
+				}
 			}
 		})
 	}

@@ -599,6 +599,15 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		d.Points[i] = Point{X: fr.toInX(r.xAt(y)), Y: fr.toInY(y)}
 	}
 
+	// A short line is judged over the rows it guides over: a bridged
+	// line's reach down to the reference row is part of it, the unseen
+	// stretch judged by the bridge's own factor below (a single dash on
+	// a 16:9 frame spans a quarter of the region, and its run-out to the
+	// reference row lies on the prediction, see bridges).
+	lineSpan := span
+	if r.bridged {
+		lineSpan = (yRefW - r.yLo + step) / roiH
+	}
 	// Confidence: each factor in [0, 1], named for the Reason.
 	type factor struct {
 		v    float64
@@ -608,7 +617,7 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		// Half the bands along the line supporting it is full marks, so a
 		// dashed line (dashes longer than gaps) is not penalised.
 		{clamp01(2 * float64(r.inliers) / spanBands), "gaps along the line"},
-		{clamp01(span / 0.5), "short line"},
+		{clamp01(lineSpan / 0.5), "short line"},
 		{clamp01(1 - 0.5*r.rms*r.rms), "poor fit"},
 		{0.3 + 0.7*clamp01((r.meanSNR-c.cfg.MinSNR)/(2*c.cfg.MinSNR)), "low contrast"},
 		{1 - clamp01((ambig-0.3)/0.6), "ambiguous: another line nearly as strong"},

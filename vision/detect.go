@@ -549,6 +549,27 @@ func (c *Classical) widthHintIn(fr frameGeom) float64 {
 
 func clamp01(v float64) float64 { return math.Min(1, math.Max(0, v)) }
 
+// guidedSpan is the share of the floor seen in the region of interest
+// that line r covers, for the "short line" factor: the floor runs from
+// the bottom of the region up to the line's own horizon where one was
+// found (a low camera sees floor only below it; above are walls and
+// racks, see nearHorizon), else over the whole region. A bridged line
+// covers the rows it guides over, its run-out down to the reference row
+// yRefW included: the unseen stretch is judged by the bridge's own
+// factor (a single dash on a 16:9 frame spans a quarter of the region,
+// and its run-out lies on the prediction, see bridges).
+func guidedSpan(r *fitResult, l bandLayout, yRefW float64) float64 {
+	floorH := float64(l.y1 - l.y0)
+	if yh := r.yh; !math.IsInf(yh, -1) && yh > float64(l.y0) && yh < float64(l.y1) {
+		floorH = float64(l.y1) - yh
+	}
+	near := r.yHi
+	if r.bridged {
+		near = math.Max(near, yRefW)
+	}
+	return (near - r.yLo + float64(l.step)) / floorH
+}
+
 // report turns fit r into a Detection. ambig is the other line's strength
 // against r's where the two differ (0: none); dark is unused (kept for
 // callers in lane.go).
@@ -556,7 +577,6 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 	roiH := float64(l.y1 - l.y0)
 	step := float64(l.step)
 	spanBands := r.observedBands(l)
-	span := (r.yHi - r.yLo + step) / roiH
 
 	// Geometry in input pixels.
 	xRefW := r.xAt(yRefW)
@@ -599,15 +619,6 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		d.Points[i] = Point{X: fr.toInX(r.xAt(y)), Y: fr.toInY(y)}
 	}
 
-	// A short line is judged over the rows it guides over: a bridged
-	// line's reach down to the reference row is part of it, the unseen
-	// stretch judged by the bridge's own factor below (a single dash on
-	// a 16:9 frame spans a quarter of the region, and its run-out to the
-	// reference row lies on the prediction, see bridges).
-	lineSpan := span
-	if r.bridged {
-		lineSpan = (yRefW - r.yLo + step) / roiH
-	}
 	// Confidence: each factor in [0, 1], named for the Reason.
 	type factor struct {
 		v    float64
@@ -617,7 +628,7 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		// Half the bands along the line supporting it is full marks, so a
 		// dashed line (dashes longer than gaps) is not penalised.
 		{clamp01(2 * float64(r.inliers) / spanBands), "gaps along the line"},
-		{clamp01(lineSpan / 0.5), "short line"},
+		{clamp01(guidedSpan(r, l, yRefW) / 0.5), "short line"},
 		{clamp01(1 - 0.5*r.rms*r.rms), "poor fit"},
 		{0.3 + 0.7*clamp01((r.meanSNR-c.cfg.MinSNR)/(2*c.cfg.MinSNR)), "low contrast"},
 		{1 - clamp01((ambig-0.3)/0.6), "ambiguous: another line nearly as strong"},

@@ -12,8 +12,9 @@ import (
 // D·sin p)/Zc, horizon at cy − f·tan p), with a rack upright of constant
 // width standing on the line's far end above the horizon. Refining a
 // hypothesis that runs up both, the line's own horizon from its near half
-// must lie within 1.5 rows of the pinhole's, and the fitted line must keep
-// no candidate above it.
+// must lie within 1.5 rows of the pinhole's, the fitted line must keep
+// no candidate above it, and it must cover at least 90 % of the floor
+// below the horizon (guidedSpan) while spanning under half the region.
 func TestNearHorizonPinhole(t *testing.T) {
 	const (
 		w, h    = 320, 240
@@ -71,6 +72,15 @@ func TestNearHorizonPinhole(t *testing.T) {
 	}
 	if r.yLo < yHorizon {
 		t.Errorf("inliers reach row %.1f, above the horizon at %.1f", r.yLo, yHorizon)
+	}
+	// The line covers the floor from the bottom nearly to the horizon
+	// (down to widths of 1 px): judged against the floor, not the whole
+	// region, it is not a short line.
+	roiSpan := (r.yHi - r.yLo + float64(l.step)) / float64(l.y1-l.y0)
+	gs := guidedSpan(r, l, 0.8*h)
+	t.Logf("span %.2f of the region, %.2f of the floor", roiSpan, gs)
+	if gs < 0.9 || roiSpan > 0.5 {
+		t.Errorf("span %.2f of the floor (want at least 0.9), %.2f of the region", gs, roiSpan)
 	}
 }
 

@@ -12,10 +12,16 @@ import (
 // not evidence that the tape is absent. Without the tracker's prediction,
 // every third frame at 320×240, judged with the TuSimple rule
 // (scoreClip). Main before clipped bands were missing evidence: recall
-// 0.55 with 13 frames wrong at confidence ≥ 0.5. Two such frames remain:
-// one whose near end, run out through the glare, strays 3 px, and one
-// dark gap between two patches of glare taken for a dark stripe (main has
-// it too).
+// 0.55 with 13 frames wrong at confidence ≥ 0.5. Three such frames remain:
+// one whose near end, run out through the glare, strays 3 px (frame 246),
+// and two dark gaps between patches of glare taken for a dark stripe
+// (frames 270 and 273, 100 px off at confidence 0.53 and 0.79). Frame 270
+// came with 1d3d70e: Classical.bridges takes the pair of estimates that
+// lands closest together, where it took (a) first before; with (a) first
+// again this frame is right, but dashed-long at 320×240 falls from 0.917
+// to 0.720 in replay. In replay, with the tracker's gate, glare has no
+// false-track frame at any size (README scores), so the trade is kept and
+// measured here.
 func TestSynthGlare(t *testing.T) {
 	if testing.Short() {
 		t.Skip("renders a scene")
@@ -26,8 +32,8 @@ func TestSynthGlare(t *testing.T) {
 	if s.recall() < 0.6 {
 		t.Errorf("recall %.3f < 0.6", s.recall())
 	}
-	if s.wrongConfident > 2 {
-		t.Errorf("%d frames wrong with confidence ≥ 0.5, want ≤ 2", s.wrongConfident)
+	if s.wrongConfident > 3 {
+		t.Errorf("%d frames wrong with confidence ≥ 0.5, want ≤ 3", s.wrongConfident)
 	}
 }
 

@@ -1,8 +1,10 @@
 package vision
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"slices"
 )
 
 // frameSeed seeds the RANSAC sampler afresh for every frame, so that the
@@ -230,10 +232,10 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 	n := 0
 	all, okAll := c.perspLine(r, l, math.Inf(-1))
 	near, okNear := c.perspLine(r, l, yTop)
+	xa, sa := all.x(yRefW), all.slope(yRefW) // every mark's bend (when okAll)
 	// (a) Every mark on one bend, the nearest marks' straight line
 	// agreeing.
 	if x0, s0, ok := c.nearLine(r, l, yTop); ok && okAll {
-		xa, sa := all.x(yRefW), all.slope(yRefW)
 		xn, xt := x0+s0*(yRefW-r.yHi), r.xAt(yRefW)
 		if math.Abs(xn-xa) <= tol {
 			spread := (math.Max(xn, math.Max(xa, xt)) - math.Min(xn, math.Min(xa, xt))) / tol
@@ -249,25 +251,15 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 			est[n], n = runout{(xb + xs) / 2, (sb + st) / 2, math.Abs(xb-xs) / tol}, n+1
 		}
 		// (c) The nearest marks' bend kept, and every mark's.
-		if okAll && r.yLo < yTop {
-			xa, sa := all.x(yRefW), all.slope(yRefW)
-			if math.Abs(xb-xa) <= tol {
-				est[n], n = runout{(xb + xa) / 2, (sb + sa) / 2, math.Abs(xb-xa) / tol}, n+1
-			}
+		if okAll && r.yLo < yTop && math.Abs(xb-xa) <= tol {
+			est[n], n = runout{(xb + xa) / 2, (sb + sa) / 2, math.Abs(xb-xa) / tol}, n+1
 		}
 	}
-	for n > 0 {
-		k := 0
-		for i := 1; i < n; i++ {
-			if est[i].spread < est[k].spread {
-				k = i
-			}
-		}
-		if c.runOut(r, l, fr, hint, yRefW, est[k].x, est[k].s, est[k].spread) {
+	slices.SortStableFunc(est[:n], func(p, q runout) int { return cmp.Compare(p.spread, q.spread) })
+	for _, e := range est[:n] {
+		if c.runOut(r, l, fr, hint, yRefW, e.x, e.s, e.spread) {
 			return true
 		}
-		n--
-		est[k] = est[n]
 	}
 	return false
 }

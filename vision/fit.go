@@ -430,7 +430,12 @@ func (c *Classical) evaluate(q curve, l bandLayout, ww int, byBand [][2]int, sel
 // plausible rejects curves that lean more than 75° or bend more than 60°
 // over the ROI.
 func plausible(q curve, l bandLayout) bool {
-	s0, s1 := q.slope(float64(l.y0)), q.slope(float64(l.y1))
+	return plausibleBetween(q, float64(l.y0), float64(l.y1))
+}
+
+// plausibleBetween is plausible over rows y0 to y1.
+func plausibleBetween(q curve, y0, y1 float64) bool {
+	s0, s1 := q.slope(y0), q.slope(y1)
 	if math.Abs(s0) > maxSlope || math.Abs(s1) > maxSlope {
 		return false
 	}
@@ -449,14 +454,7 @@ func plausibleOver(q curve, bands []int, cands []candidate) bool {
 			lo, hi = math.Min(lo, cands[i].y), math.Max(hi, cands[i].y)
 		}
 	}
-	if lo >= hi {
-		return false
-	}
-	s0, s1 := q.slope(lo), q.slope(hi)
-	if math.Abs(s0) > maxSlope || math.Abs(s1) > maxSlope {
-		return false
-	}
-	return math.Abs(math.Atan(s0)-math.Atan(s1)) <= 60*math.Pi/180
+	return lo < hi && plausibleBetween(q, lo, hi)
 }
 
 // ransac finds the best-supported curve among the candidates accepted by

@@ -11,7 +11,7 @@ import "fmt"
 //	Holding   ──frame without a usable measurement──▶ Coasting
 //	Coasting  ──2 trusted measurements in a row──▶ Holding
 //	Coasting  ──no trusted measurement for FailSafeAfter──▶ Lost
-//	Coasting  ──the line seen ending short of the reference row──▶ Lost (see Tracker, "Seeing the line end")
+//	Holding, Coasting ──the line seen running out at the reference row──▶ Lost (see Tracker, "Seeing the line end")
 //	any       ──Fault, or time going backwards──▶ Lost
 //	Lost      ──trusted measurement──▶ Regaining
 //	Regaining ──two unusable frames in a row──▶ Regaining, count restarted

@@ -376,11 +376,13 @@ func (t *Tracker) usable(m Measurement) (bool, string) {
 func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 	t.predictTo(now)
 	ok, why := t.usable(m)
-	if !ok {
+	if !ok || (m.HasReach && m.ReachPx < reachAheadPx*t.pxScale) {
 		if reason, ended := t.lineEnded(now, m); ended {
 			t.toLost(reason)
 			return
 		}
+	}
+	if !ok {
 		t.state = Coasting
 		t.consec = 0
 		t.note = why

@@ -793,7 +793,10 @@ func floorPoints(m laneFloor, pts [][2]float64, dst [][2]float64) [][2]float64 {
 // segments from j−2 on while the distance falls; inside is false when the
 // nearest point is an end of q (p lies beyond it, not beside it).
 func nearestSegment(p [2]float64, q [][2]float64, j int) (d float64, jn int, inside bool) {
-	d, jn = math.Inf(1), -1
+	// Squared distances are compared (the same order as the distances,
+	// without a square root per segment: learnFloor calls this for every
+	// point at every horizon it tries); one root at the end.
+	d2, jn := math.Inf(1), -1
 	var tn float64
 	for i := max(j-2, 0); i+1 < len(q); i++ {
 		a, b := q[i], q[i+1]
@@ -801,20 +804,20 @@ func nearestSegment(p [2]float64, q [][2]float64, j int) (d float64, jn int, ins
 		L := dx*dx + dz*dz
 		t := 0.0
 		if L > 0 {
-			t = math.Max(0, math.Min(1, ((p[0]-a[0])*dx+(p[1]-a[1])*dz)/L))
+			t = min(1, max(0, ((p[0]-a[0])*dx+(p[1]-a[1])*dz)/L))
 		}
-		di := math.Hypot(p[0]-a[0]-t*dx, p[1]-a[1]-t*dz)
-		if di < d {
-			d, jn, tn = di, i, t
+		ex, ez := p[0]-a[0]-t*dx, p[1]-a[1]-t*dz
+		if di2 := ex*ex + ez*ez; di2 < d2 {
+			d2, jn, tn = di2, i, t
 		} else if jn >= 0 && i > jn+2 {
 			break
 		}
 	}
 	if jn < 0 {
-		return d, j, false
+		return math.Inf(1), j, false
 	}
 	inside = !(jn == 0 && tn <= 0) && !(jn == len(q)-2 && tn >= 1)
-	return d, jn, inside
+	return math.Sqrt(d2), jn, inside
 }
 
 // across is the horizontal lane width at band k, seen from boundary s

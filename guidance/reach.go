@@ -27,8 +27,9 @@ import (
 // shrinking and
 //   - a measurement says the line reaches less than reachAheadPx past the
 //     reference row, or
-//   - no measurement with a reach comes, and the shrinking reach,
-//     extrapolated to now, is below reachAheadPx.
+//   - no usable measurement comes, and the shrinking reach, extrapolated
+//     to now, is below reachAheadPx (a measurement too faint to steer by
+//     may confirm the end, never deny it).
 //
 // reachAheadPx is a look-ahead: a line that is running out and reaches
 // only a few rows past the reference row gives its offset from its last
@@ -70,7 +71,7 @@ const (
 	reachJumpPx     = 40.0
 	reachAheadPx    = 24.0
 	reachFitSamples = 5
-	reachFitT       = 4.0
+	reachFitT       = 3.0
 )
 
 type reachSample struct {
@@ -189,9 +190,11 @@ func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
 		case m.ReachPx < ahead:
 			return fmt.Sprintf("line running out: it ends %.0f rows past the reference row, under the %.0f needed ahead (end of the line or a gap)", m.ReachPx, ahead), true
 		}
-		// Seen reaching far enough, even at a confidence too low to steer
-		// by: the measured reach stands against the extrapolated one.
-		return "", false
+		// Seen reaching far enough, by a measurement trusted to steer by.
+		// One too faint for that may confirm the end, never deny it.
+		if usable, _ := t.usable(m); usable {
+			return "", false
+		}
 	}
 	if pred := last.reach + rate*(now-last.t).Seconds(); pred < ahead {
 		return fmt.Sprintf("line lost with its far end running out at %.0f rows/s: end of the line or a gap", -rate), true

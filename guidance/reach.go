@@ -57,10 +57,20 @@ import (
 // rows at 320×240) counts when a least-squares line through at least
 // reachFitSamples of them falls reachFitT standard errors below zero and
 // as clearly as above. A single short detection is only refused (see
-// usable), never an alarm on its own. reachSlackPx is given at RefWidthPx and scaled with
-// the frame like the other pixel settings (SetFrameWidth): a line's end
-// runs down the image, and the detector's rows jitter, in proportion to
-// the frame. (Unscaled, 2 rows per sample asked a line's end to fall
+// usable), never an alarm on its own. reachSlackPx, reachJumpPx and
+// reachAheadPx are image rows at RefHeightPx, scaled with the frame's
+// height (SetFrameHeight): a line's end runs down the image, and the
+// detector's rows jitter, in proportion to the frame. (Scaled with the
+// width, as first written, a 1280×720 frame asked for 48 rows ahead, 6.7 %
+// of its height: the gap scene there alarmed a frame before the truth
+// stopped calling the line visible.)
+//
+// After a jump the reach is the near mark's end with tape beyond a
+// stretch: a dash gap, or a missing stretch of tape. The look-ahead then
+// does not apply, only the line's ending short of the reference row: a
+// dashed line's near dash running out is no alarm (with the look-ahead
+// dashed-long at 1280×720 alarmed at 3 more dash gaps, recall 0.740 →
+// 0.577). (Unscaled, 2 rows per sample asked a line's end to fall
 // faster than 60 rows/s at 30 frames/s at every size: the worn gap of
 // lane-reflections at 160×120 came down at 2 rows a frame, 60 rows/s,
 // and was coasted over for the whole FailSafeAfter.)
@@ -105,7 +115,7 @@ func (r *reachTrack) add(now time.Duration, m Measurement) {
 // reach has been falling over the recent samples, and whether it has
 // been falling steadily (see the constants' comment), with slack the
 // jitter allowed per sample in rows (reachSlackPx at the frame's size).
-func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate float64, last reachSample, ok bool) {
+func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate float64, last reachSample, jumped, ok bool) {
 	i0 := 0
 	for i0 < len(r.s) && now-r.s[i0].t > reachWindow {
 		i0++
@@ -113,18 +123,18 @@ func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate flo
 	// The trend starts after the latest jump (see the constants' comment).
 	for i := len(r.s) - 1; i > i0; i-- {
 		if r.s[i].reach < r.s[i-1].reach-jump {
-			i0 = i
+			i0, jumped = i, true
 			break
 		}
 	}
 	recent := r.s[i0:]
 	if len(recent) < reachMinSamples {
-		return 0, reachSample{}, false
+		return 0, reachSample{}, jumped, false
 	}
 	first, last := recent[0], recent[len(recent)-1]
 	dt := (last.t - first.t).Seconds()
 	if dt <= 0 {
-		return 0, reachSample{}, false
+		return 0, reachSample{}, jumped, false
 	}
 	steady := true
 	for i := 1; i < len(recent); i++ {
@@ -134,16 +144,16 @@ func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate flo
 		}
 	}
 	if steady && first.reach-last.reach > slack*float64(len(recent)-1) {
-		return (last.reach - first.reach) / dt, last, true
+		return (last.reach - first.reach) / dt, last, jumped, true
 	}
 	if len(recent) < reachFitSamples {
-		return 0, reachSample{}, false
+		return 0, reachSample{}, jumped, false
 	}
 	slope, se := fitSlope(recent)
 	if slope >= 0 || -slope < reachFitT*se || -slope*dt <= slack*float64(len(recent)-1) {
-		return 0, reachSample{}, false
+		return 0, reachSample{}, jumped, false
 	}
-	return slope, last, true
+	return slope, last, jumped, true
 }
 
 // fitSlope returns the least-squares slope (rows per second) of reach
@@ -178,11 +188,17 @@ func fitSlope(s []reachSample) (slope, se float64) {
 // lineEnded says whether, with m unusable at now, the line is seen to
 // have ended, and why.
 func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
-	rate, last, ok := t.reach.shrinking(now, reachSlackPx*t.pxScale, reachJumpPx*t.pxScale)
+	rate, last, jumped, ok := t.reach.shrinking(now, reachSlackPx*t.rowScale, reachJumpPx*t.rowScale)
 	if !ok {
 		return "", false
 	}
-	ahead := reachAheadPx * t.pxScale
+	ahead := reachAheadPx * t.rowScale
+	if jumped {
+		// The reach fell to the near mark's end: the line goes on beyond
+		// a stretch (a dash gap, or a missing stretch); only its ending
+		// short of the reference row tells.
+		ahead = 0
+	}
 	if m.Valid && m.HasReach && finite(m.ReachPx) {
 		switch {
 		case m.ReachPx < 0:

@@ -87,9 +87,10 @@ type Estimate struct {
 // Tick and Fault (for example in the goroutine that reads frames, with the
 // watchdog sending it ticks).
 type Tracker struct {
-	cfg     Config
-	gate    float64 // chi-square 2-DOF quantile of cfg.GateProbability
-	pxScale float64 // frame width / RefWidthPx (SetFrameWidth); 1 until set
+	cfg      Config
+	gate     float64 // chi-square 2-DOF quantile of cfg.GateProbability
+	pxScale  float64 // frame width / RefWidthPx (SetFrameWidth); 1 until set
+	rowScale float64 // frame height / RefHeightPx (SetFrameHeight); 1 until set
 
 	state   State
 	started bool
@@ -169,14 +170,18 @@ func (t *Tracker) Config() Config { return t.cfg }
 // Reset forgets everything: the tracker is Seeking again and the next call
 // starts its clock.
 func (t *Tracker) Reset() {
-	cfg, s := t.cfg, t.pxScale
+	cfg, s, rs := t.cfg, t.pxScale, t.rowScale
 	if s <= 0 {
 		s = 1
 	}
+	if rs <= 0 {
+		rs = 1
+	}
 	*t = Tracker{
-		cfg:     cfg,
-		gate:    ChiSquareQuantile(cfg.GateProbability, 2),
-		pxScale: s,
+		cfg:      cfg,
+		gate:     ChiSquareQuantile(cfg.GateProbability, 2),
+		pxScale:  s,
+		rowScale: rs,
 	}
 	t.cand.off = NewKalmanCV(cfg.OffsetAccel*s, cfg.OffsetNoisePx*s)
 	t.cand.head = NewKalmanCV(cfg.HeadingAccel, cfg.HeadingNoiseDeg)
@@ -206,6 +211,21 @@ func (t *Tracker) SetFrameWidth(w int) {
 	t.pxScale = s
 	t.cand.off.AccelSigma, t.cand.off.MeasSigma = t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s
 	t.bank.setNoise(t.cfg.OffsetAccel*s, t.cfg.OffsetNoisePx*s, t.cfg.HeadingAccel, t.cfg.HeadingNoiseDeg)
+}
+
+// RefHeightPx is the frame height at which the tracker's settings in
+// image rows (how far a line reaches, reach.go) are given.
+const RefHeightPx = 480
+
+// SetFrameHeight tells the tracker the height in pixels of the frames its
+// measurements come from: the settings in image rows (a line's reach,
+// Measurement.ReachPx) are scaled by h/RefHeightPx, as SetFrameWidth
+// scales those across the image. h ≤ 0 means RefHeightPx.
+func (t *Tracker) SetFrameHeight(h int) {
+	t.rowScale = 1
+	if h > 0 {
+		t.rowScale = float64(h) / RefHeightPx
+	}
 }
 
 // offsetRateSigma is OffsetRateSigma at the frame's width.
@@ -376,7 +396,7 @@ func (t *Tracker) usable(m Measurement) (bool, string) {
 func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 	t.predictTo(now)
 	ok, why := t.usable(m)
-	if !ok || (m.HasReach && m.ReachPx < reachAheadPx*t.pxScale) {
+	if !ok || (m.HasReach && m.ReachPx < reachAheadPx*t.rowScale) {
 		if reason, ended := t.lineEnded(now, m); ended {
 			t.toLost(reason)
 			return

@@ -243,7 +243,7 @@ func Run(ctx context.Context, src Source, cfg Config) (Stats, error) {
 				tk.fault(fmt.Sprintf("frame size changed from %dx%d to %dx%d", last.Size.X, last.Size.Y, r.Info.Size.X, r.Info.Size.Y))
 			}
 			if first || r.Info.Size != last.Size {
-				tk.frameWidth(r.Info.Size.X)
+				tk.frameSize(r.Info.Size.X, r.Info.Size.Y)
 			}
 			first, last = false, r.Info
 			if !cfg.Live {
@@ -371,11 +371,13 @@ func (c *trackerClock) update(r *Result, m guidance.Measurement) guidance.Estima
 	return e
 }
 
-// frameWidth scales the tracker's pixel settings to the frames' width.
-func (c *trackerClock) frameWidth(w int) {
+// frameSize scales the tracker's pixel settings to the frames' width and
+// its row settings to their height.
+func (c *trackerClock) frameSize(w, h int) {
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	c.tr.SetFrameWidth(w)
+	c.tr.SetFrameHeight(h)
 }
 
 // replay (replay only) tells the tracker what a recorded live run's

@@ -38,8 +38,9 @@ import (
 // is 5 % of the frame's height: the line then covers less than half of
 // the image's lower half, where the scene truth (capture/synth) stops
 // calling it visible. (Without it, the end of a line was coasted over for
-// 2-3 frames at every size, and those frames scored as false tracks: 4 of
-// the 18 of the stripe suite at 320×240, all 3 of the lane suite's.)
+// 2-3 frames at every size, and those frames scored as false tracks: with
+// it and the fit below, the stripe suite's false-track frames at 320×240
+// fell 18 → 6, the lane suite's 3 → 0.)
 //
 // Ahead of a missing stretch too long to bridge, the stripe detector's
 // fitted line runs on across it to the tape beyond, so it reports the
@@ -70,7 +71,9 @@ import (
 // does not apply, only the line's ending short of the reference row: a
 // dashed line's near dash running out is no alarm (with the look-ahead
 // dashed-long at 1280×720 alarmed at 3 more dash gaps, recall 0.740 →
-// 0.577). (Unscaled, 2 rows per sample asked a line's end to fall
+// 0.577).
+//
+// (Unscaled, 2 rows of slack per sample asked a line's end to fall
 // faster than 60 rows/s at 30 frames/s at every size: the worn gap of
 // lane-reflections at 160×120 came down at 2 rows a frame, 60 rows/s,
 // and was coasted over for the whole FailSafeAfter.)
@@ -112,9 +115,11 @@ func (r *reachTrack) add(now time.Duration, m Measurement) {
 }
 
 // shrinking returns the rate (rows per second, negative) at which the
-// reach has been falling over the recent samples, and whether it has
-// been falling steadily (see the constants' comment), with slack the
-// jitter allowed per sample in rows (reachSlackPx at the frame's size).
+// reach has been falling over the recent samples, whether the trend
+// starts after a jump (jump rows or more at once: the near mark's end
+// taking over), and whether it has been falling steadily (see the
+// constants' comment), with slack the jitter allowed per sample in rows
+// (reachSlackPx at the frame's size).
 func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate float64, last reachSample, jumped, ok bool) {
 	i0 := 0
 	for i0 < len(r.s) && now-r.s[i0].t > reachWindow {
@@ -185,8 +190,8 @@ func fitSlope(s []reachSample) (slope, se float64) {
 	return slope, math.Sqrt(ss / (n - 2) / stt)
 }
 
-// lineEnded says whether, with m unusable at now, the line is seen to
-// have ended, and why.
+// lineEnded says whether the line is seen to have ended at now, and why:
+// m is unusable, or reaches less than reachAheadPx past the reference row.
 func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
 	rate, last, jumped, ok := t.reach.shrinking(now, reachSlackPx*t.rowScale, reachJumpPx*t.rowScale)
 	if !ok {

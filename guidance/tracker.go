@@ -197,9 +197,9 @@ const RefWidthPx = 640
 
 // SetFrameWidth tells the tracker the width in pixels of the frames its
 // measurements come from, and scales the pixel settings by w/RefWidthPx.
-// Call it before the first Update and whenever the frame size changes (a
-// size change is a fault anyway: the track starts again). w ≤ 0 means
-// RefWidthPx.
+// Call it (and SetFrameHeight) before the first Update and whenever the
+// frame size changes (a size change is a fault anyway: the track starts
+// again). w ≤ 0 means RefWidthPx.
 func (t *Tracker) SetFrameWidth(w int) {
 	s := 1.0
 	if w > 0 {

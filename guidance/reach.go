@@ -190,14 +190,18 @@ func fitSlope(s []reachSample) (slope, se float64) {
 	return slope, math.Sqrt(ss / (n - 2) / stt)
 }
 
+// aheadRows is reachAheadPx at the frame's height.
+func (t *Tracker) aheadRows() float64 { return reachAheadPx * t.rowScale }
+
 // lineEnded says whether the line is seen to have ended at now, and why:
-// m is unusable, or reaches less than reachAheadPx past the reference row.
-func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
+// m is unusable (usable false, from Tracker.usable), or reaches less than
+// aheadRows past the reference row.
+func (t *Tracker) lineEnded(now time.Duration, m Measurement, usable bool) (string, bool) {
 	rate, last, jumped, ok := t.reach.shrinking(now, reachSlackPx*t.rowScale, reachJumpPx*t.rowScale)
 	if !ok {
 		return "", false
 	}
-	ahead := reachAheadPx * t.rowScale
+	ahead := t.aheadRows()
 	if jumped {
 		// The reach fell to the near mark's end: the line goes on beyond
 		// a stretch (a dash gap, or a missing stretch); only its ending
@@ -213,7 +217,7 @@ func (t *Tracker) lineEnded(now time.Duration, m Measurement) (string, bool) {
 		}
 		// Seen reaching far enough, by a measurement trusted to steer by.
 		// One too faint for that may confirm the end, never deny it.
-		if usable, _ := t.usable(m); usable {
+		if usable {
 			return "", false
 		}
 	}

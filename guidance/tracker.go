@@ -396,8 +396,8 @@ func (t *Tracker) usable(m Measurement) (bool, string) {
 func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 	t.predictTo(now)
 	ok, why := t.usable(m)
-	if !ok || (m.HasReach && m.ReachPx < reachAheadPx*t.rowScale) {
-		if reason, ended := t.lineEnded(now, m); ended {
+	if !ok || (m.HasReach && m.ReachPx < t.aheadRows()) {
+		if reason, ended := t.lineEnded(now, m, ok); ended {
 			t.toLost(reason)
 			return
 		}

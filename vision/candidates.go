@@ -14,6 +14,11 @@ type candidate struct {
 	sat      bool    // the stripe is saturated here (a lamp reflection?)
 	dark     bool    // darker than the floor (luminance)
 	chroma   bool    // found in the chroma channel (a colour ridge)
+	cut      bool    // one edge seen, the other lost in glare or off the ROI (cutCandidates)
+	// nearClip: nearly clipped pixels (glareLevel) on it or within 2 px
+	// of its edges; its width and centre may be those of the part glare
+	// left visible.
+	nearClip bool
 	gated    bool    // within the tracker's prediction gate
 	taken    bool    // supports the line already found
 	rank     float64 // ordering within the band, strongest first
@@ -204,11 +209,20 @@ func (c *Classical) bandCandidates(k int, l bandLayout, fr frameGeom, sigma floa
 	}
 	c.runs = runs
 	c.prefixSums(p)
-	c.ridges(p, gm, widths, l, k, yc, c.profileNoise(p), true, false, true, runs)
+	from := len(c.cands)
+	noise := c.profileNoise(p)
+	c.ridges(p, gm, widths, l, k, yc, noise, true, false, true, runs)
+	if w, ok := c.widthMem.at(yc); ok {
+		c.cutCandidates(p, gm, l, k, yc, w, noise, from)
+	}
 }
 
 // satLevel is the grey level from which a pixel counts as clipped.
 const satLevel = 250
+
+// glareLevel is the grey level from which a pixel counts as in glare,
+// nearly clipped: a stripe's colour is washed out there.
+const glareLevel = 240
 
 // recordSaturation keeps band k's clipped columns and its columns outside
 // the picture (from gm, the band's maximum grey level per column from the
@@ -682,11 +696,21 @@ func (c *Classical) addCandidate(bc []candidate, p, gm, P, P2 []float64, c0, w, 
 	if tot == 0 || float64(fg) < 0.6*float64(tot) {
 		return bc
 	}
+	// Glare at or next to the crossing: washed-out colour narrows a
+	// chroma crossing before its pixels clip.
+	glared := false
+	for i := max(int(math.Floor(eL))-2, 0); i < min(int(math.Ceil(eR))+2, n); i++ {
+		if gm[i] >= glareLevel {
+			glared = true
+			break
+		}
+	}
 	return append(bc, candidate{
 		band: band, y: yc, x: x, w: width,
 		contrast: contrast, snr: snr,
-		sat:    !dark && float64(satN) >= 0.5*float64(tot),
-		dark:   dark,
-		chroma: chroma,
+		sat:      !dark && float64(satN) >= 0.5*float64(tot),
+		dark:     dark,
+		chroma:   chroma,
+		nearClip: glared,
 	})
 }

@@ -36,7 +36,10 @@ const (
 //     against the frame's measured noise. The chroma channel runs the
 //     same filters on each band's distance from the floor's (median)
 //     chromaticity; grey distractors (grout, cracks, tyre marks, shadows)
-//     are invisible in it;
+//     are invisible in it. Where one side of a coloured stripe is lost
+//     (washed out by a lamp's glare, or beyond the side of the region)
+//     and its other edge is sharp, a cut crossing is placed half the
+//     remembered width in from that edge (cutedge.go);
 //  3. confirm each candidate with a Sauvola local threshold over a window
 //     three stripe widths wide, and measure its edges at half height for
 //     a sub-pixel centre and width;
@@ -58,8 +61,9 @@ const (
 //     region;
 //  5. choose among the channels' lines by their support summed over every
 //     channel (tape that is both lighter and coloured beats a tyre mark
-//     that is only darker), keeping only lines that reach the reference
-//     row; score the result: share of bands along the line that support
+//     that is only darker; on a tie, the colour channel's fit), keeping
+//     only lines that reach the reference row; score the result: share
+//     of bands along the line that support
 //     it, span, residual, contrast, and whether another line is nearly as
 //     strong where the two differ (ambiguity; a line that does not narrow
 //     with the chosen line's perspective, such as a rack upright above
@@ -116,7 +120,8 @@ type Classical struct {
 	// in lane mode, which reads the boundary curves over the whole ROI
 	// (lane-s-curve at 320×240 fell from 0.927 to 0.547 recall with it).
 	tangentEnds bool
-	dashes      dashMemory // the last dashed line's gap, for single dashes
+	dashes      dashMemory  // the last dashed line's gap, for single dashes
+	widthMem    widthMemory // the last trusted line's width profile, for stripes cut by glare
 	closed      bool
 }
 
@@ -159,17 +164,19 @@ func notFound(reason string) Detection {
 // img. An empty, closed, unsupported, too small or too large frame gives
 // Found=false with the reason; OpenCV is never called on it.
 //
-// Detect keeps two short memories from frame to frame, both dropped on a
-// frame it cannot use: the last frame's clipped pixels, to tell a
-// mirrored lamp by its motion (mirror.go), and the gap of the last
-// dashed line chosen, so that a frame showing a single dash is bridged
-// like the pattern it belongs to (dashmem.go). Use a new detector for
-// each clip.
+// Detect keeps three short memories from frame to frame, all dropped on
+// a frame it cannot use: the last frame's clipped pixels, to tell a
+// mirrored lamp by its motion (mirror.go), the gap of the last dashed
+// line chosen, so that a frame showing a single dash is bridged like the
+// pattern it belongs to (dashmem.go), and the width profile of the last
+// line it trusted, so that a stripe half lost in glare is placed from
+// its one visible edge (cutedge.go). Use a new detector for each clip.
 func (c *Classical) Detect(img gocv.Mat, hint Hint) Detection {
 	fr, why := c.load(img)
 	if why != "" {
 		c.mirror.forget()
 		c.dashes.forget()
+		c.widthMem.forget()
 		return notFound(why)
 	}
 	return c.detect(fr, hint)

@@ -18,6 +18,9 @@
 //     measured between its half-height edges, must have sharp edges and pass
 //     a Sauvola test. Clipped (glare) and out-of-picture columns are kept, so
 //     that a band lost in glare counts as missing evidence, not absence.
+//     cutedge.go adds crossings that show one edge only (the other side
+//     washed out by glare or beyond the region's side), placed half the
+//     width remembered from the last trusted line in from that edge.
 //   - fit.go: RANSAC over the crossings (with the tracker's prediction as a
 //     gated prior), then refine: width and centre curves by weighted least
 //     squares, crossings whose width disagrees dropped, clipped crossings

@@ -542,6 +542,25 @@ func parabola3(p1, p2, p3 *candidate, y0, sc float64) (curve, bool) {
 // weighted least squares to r's inliers (only the unclipped ones when
 // unclipped is set) and returns it with the number of inliers used.
 func (c *Classical) widthFit(r *fitResult, l bandLayout, y0, sc float64, unclipped bool) (curve, int) {
+	sel := widthAll
+	if unclipped {
+		sel = widthUnclipped
+	}
+	return c.widthFitOf(r, l, y0, sc, sel)
+}
+
+// widthSel says which inliers a width profile is fitted to.
+type widthSel int
+
+const (
+	widthAll       widthSel = iota // every measured crossing
+	widthUnclipped                 // the unclipped ones
+	widthClean                     // the unclipped ones with no glare beside them (nearClip)
+)
+
+// widthFitOf is widthFit over the inliers sel names. A cut crossing's
+// width is the remembered one, not a measurement: it is never used.
+func (c *Classical) widthFitOf(r *fitResult, l bandLayout, y0, sc float64, sel widthSel) (curve, int) {
 	var sw, st, sw2, stt, stw float64
 	n := 0
 	for _, i := range r.bands {
@@ -549,7 +568,7 @@ func (c *Classical) widthFit(r *fitResult, l bandLayout, y0, sc float64, unclipp
 			continue
 		}
 		cd := &c.cands[i]
-		if unclipped && cd.sat {
+		if cd.cut || sel >= widthUnclipped && cd.sat || sel == widthClean && cd.nearClip {
 			continue
 		}
 		t := (cd.y - y0) / sc

@@ -174,6 +174,12 @@ func reachWithin(r *fitResult, l bandLayout) float64 {
 // reference row (see Classical.bridges).
 const bridgeFactor = 0.75
 
+// priorPickedFactor scales bridgeFactor for a run-out the prediction
+// chose between two bounds that disagree: 0.75 × 0.6 = 0.45, between the
+// tracker's hold confidence (0.4) and its acquisition confidence (0.5),
+// so that such a frame can keep a locked track, never start one.
+const priorPickedFactor = 0.6
+
 // bridges says whether line r may be run out across an unseen stretch
 // between its near end and the reference row: a dashed or dotted line
 // whose nearest mark lies beyond the reference row (a dash gap at the
@@ -217,8 +223,17 @@ const bridgeFactor = 0.75
 //     an unseen stretch too long for the straight bounds of (a) and (b)
 //     to agree across.
 //     Of the pairs that agree, the one whose estimates land closest
-//     together is taken. Where none agrees the stretch stays unseen. The
-//     run-out must lie inside the region of interest;
+//     together is taken. Where none agrees and there is a prediction,
+//     the two bounds of (b) are each held against its gate (below): when
+//     it admits exactly one, that one is the run-out, at a lower
+//     confidence (priorPickedFactor). A single far dash seen by a 16:9
+//     frame (dashed-long at 1280×720) shows too little of the bend to
+//     say whether it goes on; the two bounds then land 20-45 px apart at
+//     the reference row, and the tracker's predicted heading, kept from
+//     the dashes seen before, is within 1σ of the right one and 4σ or
+//     more from the other (frames 84, 229 and 265: the bend kept twice,
+//     the straight line once). Where none agrees otherwise the stretch
+//     stays unseen. The run-out must lie inside the region of interest;
 //   - with a prediction (hint valid), the run-out agrees with it in
 //     offset and heading at the reference row: the squared distance in
 //     units of the prediction's σ (which holds the measurement noise,
@@ -284,6 +299,22 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 			return true
 		}
 	}
+	if hint.Valid && okNear {
+		// No pair agrees: the prediction decides between the two bounds
+		// of (b) when it admits exactly one.
+		st := near.slope(r.yHi)
+		xs := near.x(r.yHi) + st*(yRefW-r.yHi)
+		xb, sb := near.x(yRefW), near.slope(yRefW)
+		okB, okS := c.admits(l, fr, hint, xb, sb), c.admits(l, fr, hint, xs, st)
+		if okB != okS {
+			if okS {
+				xb, sb = xs, st
+			}
+			c.runOut(r, l, fr, hint, yRefW, xb, sb, 0)
+			r.priorPicked = true
+			return true
+		}
+	}
 	return false
 }
 
@@ -291,22 +322,32 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 // with slope s, when that lies inside the region of interest and, with a
 // prediction, agrees with it; spread is r.bridgeSpread.
 func (c *Classical) runOut(r *fitResult, l bandLayout, fr frameGeom, hint Hint, yRefW, x, s, spread float64) bool {
-	if math.Abs(s) > maxSlope || x < float64(l.x0) || x > float64(l.x1) {
+	if !c.admits(l, fr, hint, x, s) {
 		return false
-	}
-	if hint.Valid {
-		off := fr.toInX(x) - fr.inW/2
-		head := math.Atan(-s*fr.sy/fr.sx) * 180 / math.Pi
-		so := math.Max(hint.OffsetSigma, 0.5)
-		sh := math.Max(hint.HeadingSigma, 0.1)
-		do, dh := (off-hint.OffsetPx)/so, (head-hint.HeadingDeg)/sh
-		if do*do+dh*dh > 9.21 {
-			return false
-		}
 	}
 	r.bridged, r.nearX, r.nearSlope = true, x-s*(yRefW-r.yHi), s
 	r.bridgeSpread = spread
 	return true
+}
+
+// admits says whether a run-out through x at the reference row with
+// slope s lies inside the region of interest and, with a prediction,
+// agrees with it: the squared distance in units of the prediction's σ
+// (which holds the measurement noise, see Hint) within the χ² 2-DOF 99 %
+// quantile 9.21, the tracker's own gate.
+func (c *Classical) admits(l bandLayout, fr frameGeom, hint Hint, x, s float64) bool {
+	if math.Abs(s) > maxSlope || x < float64(l.x0) || x > float64(l.x1) {
+		return false
+	}
+	if !hint.Valid {
+		return true
+	}
+	off := fr.toInX(x) - fr.inW/2
+	head := math.Atan(-s*fr.sy/fr.sx) * 180 / math.Pi
+	so := math.Max(hint.OffsetSigma, 0.5)
+	sh := math.Max(hint.HeadingSigma, 0.1)
+	do, dh := (off-hint.OffsetPx)/so, (head-hint.HeadingDeg)/sh
+	return do*do+dh*dh <= 9.21
 }
 
 // reaches says whether line r comes near enough to the reference row to
@@ -675,7 +716,13 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 			// tangent) land together, down to 0.375 of it as they spread
 			// over the agreement required, and below beyond.
 			s := r.bridgeSpread
-			v = math.Max(v, bridgeFactor*clamp01(1-0.5*s*s))
+			if r.priorPicked {
+				// Chosen by the prediction between two bounds that
+				// disagree (see bridges).
+				v = math.Max(v, bridgeFactor*priorPickedFactor)
+			} else {
+				v = math.Max(v, bridgeFactor*clamp01(1-0.5*s*s))
+			}
 		}
 		fs = append(fs, factor{v, "reference row off the measured stretch"})
 	}

@@ -48,6 +48,9 @@ type fitResult struct {
 	// land at the reference row, in units of the agreement required
 	// (see Classical.bridges).
 	bridgeSpread float64
+	// priorPicked: of the bridge's two bounds, which disagree, the
+	// prediction admitted one (see bridges).
+	priorPicked bool
 	// unseen counts the bands along the measured stretch without support
 	// where the line could not have been seen (unobservable: clipped by
 	// glare, or off the side of the frame).

@@ -174,12 +174,18 @@ func notFound(reason string) Detection {
 func (c *Classical) Detect(img gocv.Mat, hint Hint) Detection {
 	fr, why := c.load(img)
 	if why != "" {
-		c.mirror.forget()
-		c.dashes.forget()
-		c.widthMem.forget()
+		c.forgetFrames()
 		return notFound(why)
 	}
 	return c.detect(fr, hint)
+}
+
+// forgetFrames drops what Detect remembers from earlier frames (see
+// Detect), as a new clip would.
+func (c *Classical) forgetFrames() {
+	c.mirror.forget()
+	c.dashes.forget()
+	c.widthMem.forget()
 }
 
 // load checks img and prepares the working images from it (see Detect);

@@ -16,9 +16,7 @@ func (c *Classical) detect(fr frameGeom, hint Hint) Detection {
 	c.widthMem.age()
 	l, byBand, wantLight, wantDark, why := c.extract(fr)
 	if why != "" {
-		c.mirror.forget()
-		c.dashes.forget()
-		c.widthMem.forget()
+		c.forgetFrames()
 		return notFound(why)
 	}
 	// streaks of clipped pixels that do not move with the floor are

@@ -3,6 +3,8 @@ package vision
 import (
 	"math"
 	"testing"
+
+	"gocv.io/x/gocv"
 )
 
 // TestSynthGlare: on glare (the renderer's glossy floor mirroring ceiling
@@ -87,6 +89,10 @@ func TestGlareOverTheNearEnd(t *testing.T) {
 // 540, worst 12.8 px and 12.6°; after: 44, worst 7.8 px and 8.1°, with the
 // reflection narrower than the stripe beside it (not clipped over the
 // stripe, so not left out) or over yellow tape, whose colour it hides.
+// Each frame is judged by a fresh detector and by one that saw the same
+// view without the glare just before, and so remembers the stripe's
+// width (cutedge.go): measured 43 (worst 6.9 px, 9.4°) and 17 (6.9 px,
+// 9.4°).
 func TestGlareOverTheNearEndSweep(t *testing.T) {
 	if testing.Short() {
 		t.Skip("renders 180 frames")
@@ -96,7 +102,19 @@ func TestGlareOverTheNearEndSweep(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer det.Close()
-	wrong, worstOff, worstHead := 0, 0.0, 0.0
+	clean := map[[3]float64]gocv.Mat{}
+	for _, tape := range [][3]float64{whiteTape, yellowTape} {
+		s := baseScene(640, 480)
+		s.stripe = tape
+		m := s.draw(t)
+		defer m.Close()
+		clean[tape] = m
+	}
+	// wrong[0]: a fresh detector for every frame; wrong[1]: one that saw
+	// the same view without the glare just before (as a vehicle does,
+	// frames before the lamp's reflection reaches the stripe).
+	var wrong [2]int
+	var worstOff, worstHead [2]float64
 	for _, hw := range []float64{0.03, 0.05, 0.08} {
 		for _, hh := range []float64{0.06, 0.1, 0.15} {
 			for _, y := range []float64{0.8, 0.9, 1.0} {
@@ -106,15 +124,21 @@ func TestGlareOverTheNearEndSweep(t *testing.T) {
 						img := s.draw(t)
 						ref := 0.8 * float64(s.h)
 						for _, h := range []Hint{{}, {Valid: true, OffsetPx: s.truthAt(ref) - float64(s.w)/2, HeadingDeg: s.truthHeading(ref), OffsetSigma: 4, HeadingSigma: 2}} {
-							d := det.Detect(img, h)
-							if !d.Found || d.Confidence < 0.5 {
-								continue
-							}
-							eo := math.Abs(d.OffsetPx - (s.truthAt(d.RefRow) - float64(s.w)/2))
-							eh := math.Abs(d.HeadingDeg - s.truthHeading(d.RefRow))
-							if eo > tuSimpleTol(s.w) || eh > 3 {
-								wrong++
-								worstOff, worstHead = math.Max(worstOff, eo), math.Max(worstHead, eh)
+							for before := range 2 {
+								det.forgetFrames()
+								if before == 1 {
+									det.Detect(clean[tape], h)
+								}
+								d := det.Detect(img, h)
+								if !d.Found || d.Confidence < 0.5 {
+									continue
+								}
+								eo := math.Abs(d.OffsetPx - (s.truthAt(d.RefRow) - float64(s.w)/2))
+								eh := math.Abs(d.HeadingDeg - s.truthHeading(d.RefRow))
+								if eo > tuSimpleTol(s.w) || eh > 3 {
+									wrong[before]++
+									worstOff[before], worstHead[before] = math.Max(worstOff[before], eo), math.Max(worstHead[before], eh)
+								}
 							}
 						}
 						img.Close()
@@ -123,8 +147,11 @@ func TestGlareOverTheNearEndSweep(t *testing.T) {
 			}
 		}
 	}
-	t.Logf("confidently wrong: %d of 540 (worst %.1f px, %.1f°)", wrong, worstOff, worstHead)
-	if wrong > 50 || worstOff > 10 {
-		t.Errorf("confidently wrong %d of 540, worst %.1f px off: want ≤ 50 and within 10 px (main before the change: 87, 12.8 px)", wrong, worstOff)
+	for before, name := range []string{"fresh detector", "after the clean view"} {
+		limit := [2]int{50, 25}[before]
+		t.Logf("%s: confidently wrong %d of 540 (worst %.1f px, %.1f°)", name, wrong[before], worstOff[before], worstHead[before])
+		if wrong[before] > limit || worstOff[before] > 10 {
+			t.Errorf("%s: confidently wrong %d of 540, worst %.1f px off: want ≤ %d and within 10 px (main before clipped crossings left the centre fit: 87, 12.8 px)", name, wrong[before], worstOff[before], limit)
+		}
 	}
 }

@@ -164,20 +164,11 @@ func TestStripeCutByGlare(t *testing.T) {
 	// The ellipse's right edge runs along the stripe's centre near row
 	// fraction 0.85, and across the stripe above and below.
 	cut.streaks = []streak{{x: clean.centre(0.85)/float64(clean.w) - 0.1, y: 0.85, halfW: 0.1, halfH: 0.55}}
-	det, err := NewClassical(DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer det.Close()
+	det, fresh := defaultDetector(t), defaultDetector(t)
 	ci := clean.draw(t)
 	defer ci.Close()
 	gi := cut.draw(t)
 	defer gi.Close()
-	fresh, err := NewClassical(DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer fresh.Close()
 	d0 := fresh.Detect(gi, Hint{})
 	t.Logf("without a remembered width: found %v conf %.2f %q offset %.2f", d0.Found, d0.Confidence, d0.Reason, d0.OffsetPx)
 	for i := 0; i < 3; i++ {
@@ -222,11 +213,7 @@ func TestStripeLeavingTheSide(t *testing.T) {
 	s.xBottom, s.xTop, s.bend = -0.06, 0.45, 0.15
 	img := s.draw(t)
 	defer img.Close()
-	det, err := NewClassical(DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer det.Close()
+	det := defaultDetector(t)
 	worst := func(d Detection) float64 {
 		e := 0.0
 		for _, p := range d.Points {
@@ -249,4 +236,16 @@ func TestStripeLeavingTheSide(t *testing.T) {
 	if e := worst(d); e > 1 {
 		t.Errorf("near end %.2f px off the centreline, want within 1 px", e)
 	}
+}
+
+// defaultDetector is a classical detector with the default
+// configuration, closed when the test ends.
+func defaultDetector(t *testing.T) *Classical {
+	t.Helper()
+	det, err := NewClassical(DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { det.Close() })
+	return det
 }

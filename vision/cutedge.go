@@ -59,13 +59,13 @@ func (c *Classical) seeWidth(r *fitResult, l bandLayout, conf float64) {
 	if r == nil || !r.ok || conf < 0.5 {
 		return
 	}
-	w, n := c.widthFitOf(r, l, r.centre.y0, r.centre.scale, widthClean)
+	w, n := c.widthFit(r, l, r.centre.y0, r.centre.scale, widthClean)
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for _, i := range r.bands {
 		if i < 0 {
 			continue
 		}
-		if cd := &c.cands[i]; !cd.cut && !cd.sat && !cd.nearClip {
+		if cd := &c.cands[i]; widthClean.keeps(cd) {
 			lo, hi = math.Min(lo, cd.y), math.Max(hi, cd.y)
 		}
 	}

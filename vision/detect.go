@@ -308,9 +308,8 @@ func (c *Classical) bridges(r *fitResult, l bandLayout, fr frameGeom, hint Hint,
 			if okS {
 				xb, sb = xs, st
 			}
-			c.runOut(r, l, fr, hint, yRefW, xb, sb, 0)
-			r.priorPicked = true
-			return true
+			r.priorPicked = c.runOut(r, l, fr, hint, yRefW, xb, sb, 0)
+			return r.priorPicked
 		}
 	}
 	return false

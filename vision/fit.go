@@ -541,18 +541,9 @@ func parabola3(p1, p2, p3 *candidate, y0, sc float64) (curve, bool) {
 	return curve{a: a, b: b, c: c, y0: y0, scale: sc}, true
 }
 
-// widthFit fits the width profile w(t) = a + b·t, t = (y − y0)/sc, by
-// weighted least squares to r's inliers (only the unclipped ones when
-// unclipped is set) and returns it with the number of inliers used.
-func (c *Classical) widthFit(r *fitResult, l bandLayout, y0, sc float64, unclipped bool) (curve, int) {
-	sel := widthAll
-	if unclipped {
-		sel = widthUnclipped
-	}
-	return c.widthFitOf(r, l, y0, sc, sel)
-}
-
-// widthSel says which inliers a width profile is fitted to.
+// widthSel says which inliers a width profile is fitted to. A cut
+// crossing's width is the remembered one, not a measurement: none takes
+// it.
 type widthSel int
 
 const (
@@ -561,9 +552,15 @@ const (
 	widthClean                     // the unclipped ones with no glare beside them (nearClip)
 )
 
-// widthFitOf is widthFit over the inliers sel names. A cut crossing's
-// width is the remembered one, not a measurement: it is never used.
-func (c *Classical) widthFitOf(r *fitResult, l bandLayout, y0, sc float64, sel widthSel) (curve, int) {
+// keeps says whether sel takes candidate cd.
+func (sel widthSel) keeps(cd *candidate) bool {
+	return !cd.cut && !(sel >= widthUnclipped && cd.sat) && !(sel == widthClean && cd.nearClip)
+}
+
+// widthFit fits the width profile w(t) = a + b·t, t = (y − y0)/sc, by
+// weighted least squares to the inliers of r that sel keeps and returns
+// it with the number of inliers used.
+func (c *Classical) widthFit(r *fitResult, l bandLayout, y0, sc float64, sel widthSel) (curve, int) {
 	var sw, st, sw2, stt, stw float64
 	n := 0
 	for _, i := range r.bands {
@@ -571,7 +568,7 @@ func (c *Classical) widthFitOf(r *fitResult, l bandLayout, y0, sc float64, sel w
 			continue
 		}
 		cd := &c.cands[i]
-		if cd.cut || sel >= widthUnclipped && cd.sat || sel == widthClean && cd.nearClip {
+		if !sel.keeps(cd) {
 			continue
 		}
 		t := (cd.y - y0) / sc
@@ -608,10 +605,10 @@ func (c *Classical) refine(res *fitResult, l bandLayout, ww int, byBand [][2]int
 		// inliers when there are three or more: a clipped crossing's
 		// width is the clipped stretch's (a lamp's glare merged with the
 		// stripe), not the stripe's.
-		wc, nu := c.widthFit(res, l, y0, sc, true)
+		wc, nu := c.widthFit(res, l, y0, sc, widthUnclipped)
 		if nu < 3 {
 			var na int
-			if wc, na = c.widthFit(res, l, y0, sc, false); na == 0 {
+			if wc, na = c.widthFit(res, l, y0, sc, widthAll); na == 0 {
 				res.ok = false
 				return
 			}

@@ -71,7 +71,12 @@ const (
 //     far from the prediction, or its near stretch ends at the reference
 //     row before a missing stretch longer than the line is run out across
 //     (the line is going). A line whose near half is clipped (a lamp's
-//     glare streak) is discounted in the choice as in the score.
+//     glare streak) is discounted in the choice as in the score. Offset
+//     and heading are the quadratic's at the reference row; the points
+//     along the line follow the perspective image of a path on the floor
+//     instead (perspFit) where the line's own horizon lies in the region
+//     and that curve halves the quadratic's squared residuals or better:
+//     towards a low camera's horizon a bend swings across the image.
 //
 // A Classical is not safe for concurrent use; use one per goroutine.
 type Classical struct {

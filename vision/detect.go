@@ -665,6 +665,10 @@ func (c *Classical) report(fr frameGeom, l bandLayout, r *fitResult, dark, fromP
 		yBot = float64(l.y1)
 	}
 	yTop := math.Max(r.yLo-step/2, float64(l.y0))
+	// The points follow the line's perspective curve where it has one
+	// (perspFit); offset and heading above stay the quadratic's, which
+	// the near rows fix as well.
+	c.perspFit(r, l, fr.ww)
 	n := min(max(r.inliers, 8), 32)
 	d.Points = make([]Point, n)
 	for i := range d.Points {

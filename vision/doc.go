@@ -26,6 +26,10 @@
 //     squares, crossings whose width disagrees dropped, clipped crossings
 //     left out of the centre fit where the line has unclipped ones, and
 //     inliers above the line's own horizon (from its near widths) dropped.
+//     Where the horizon lies in the region (a low camera), the reported
+//     points follow the image of a path on the floor, x = A + B·u + C/u
+//     with u the row's distance below that horizon (perspFit), when it
+//     fits the inliers decisively better than the quadratic.
 //     Dashed lines are run across a gap at the vehicle only under tested
 //     rules (bridges, in detect.go); dashmem.go remembers a dashed
 //     line's gap for a few frames, for frames that show a single dash.

@@ -57,6 +57,12 @@ type fitResult struct {
 	unseen int
 	// nearUnseen is unseen over the near (lower) half of the ROI.
 	nearUnseen int
+	// persp, when perspOK, is the centreline as the image of a path on
+	// the floor (see perspFit), used in place of centre from row
+	// perspTop down; above perspTop it runs out along its tangent there.
+	persp    perspCurve
+	perspOK  bool
+	perspTop float64
 }
 
 // satFactor is the confidence factor for clipped inliers: a line of
@@ -142,11 +148,33 @@ func (r *fitResult) xAt(y float64) float64 {
 	case y > r.yHi && r.bridged:
 		return r.nearX + r.nearSlope*(y-r.yHi)
 	case y > r.yHi:
-		return r.centre.x(r.yHi) + r.centre.slope(r.yHi)*(y-r.yHi)
+		return r.modelX(r.yHi) + r.modelSlope(r.yHi)*(y-r.yHi)
+	case r.perspOK && y < r.perspTop:
+		return r.persp.x(r.perspTop) + r.persp.slope(r.perspTop)*(y-r.perspTop)
+	case r.perspOK:
+		// A path on the floor bends in the image towards its horizon:
+		// its perspective curve runs on beyond the far inlier.
+		return r.persp.x(y)
 	case y < r.yLo:
 		return r.centre.x(r.yLo) + r.centre.slope(r.yLo)*(y-r.yLo)
 	}
 	return r.centre.x(y)
+}
+
+// modelX and modelSlope are the centreline's model at row y (the
+// perspective curve where r has one, else the quadratic) and its dx/dy.
+func (r *fitResult) modelX(y float64) float64 {
+	if r.perspOK {
+		return r.persp.x(y)
+	}
+	return r.centre.x(y)
+}
+
+func (r *fitResult) modelSlope(y float64) float64 {
+	if r.perspOK {
+		return r.persp.slope(y)
+	}
+	return r.centre.slope(y)
 }
 
 // dashed says whether the measured stretch has gaps of its own: a run of
@@ -194,15 +222,23 @@ func (c *Classical) perspLine(r *fitResult, l bandLayout, yTop float64) (p persp
 	if wc.b <= 0 {
 		return p, false
 	}
-	p.yh = wc.y0 - wc.scale*wc.a/wc.b
-	if p.yh >= r.yLo-float64(l.step) {
+	yh := wc.y0 - wc.scale*wc.a/wc.b
+	if yh >= r.yLo-float64(l.step) {
 		return p, false
 	}
+	return c.perspAt(r, l, yh, yTop, false)
+}
+
+// perspAt fits a perspCurve with horizon row yh by weighted least squares
+// to r's inliers at rows yTop and below, the clipped ones left out when
+// unclippedOnly. ok is false with fewer than six of them.
+func (c *Classical) perspAt(r *fitResult, l bandLayout, yh, yTop float64, unclippedOnly bool) (p perspCurve, ok bool) {
+	p.yh = yh
 	var A [3][3]float64
 	var B [3]float64
 	n := 0
 	for _, i := range r.bands {
-		if i < 0 || c.cands[i].y < yTop {
+		if i < 0 || c.cands[i].y < yTop || (unclippedOnly && c.cands[i].sat) {
 			continue
 		}
 		cd := &c.cands[i]
@@ -221,6 +257,78 @@ func (c *Classical) perspLine(r *fitResult, l bandLayout, yTop float64) (p persp
 	}
 	p.a, p.b, p.c = sol[0], sol[1], sol[2]
 	return p, true
+}
+
+// perspFit makes r's centreline the image of a path on the floor where
+// that fits r's inliers decisively better than the quadratic. On a flat
+// floor seen by a camera without roll, a path whose lateral position is
+// a quadratic in the distance ahead (a constant bend, or a straight
+// line) is exactly x = A + B·u + C/u in the image, u = y − yh
+// (perspCurve): the bend grows without bound towards the horizon, where
+// a quadratic in the image hardly bends. A low camera sees that: the
+// near marks a gentle curve, the far ones swinging across the image.
+//
+// The horizon is the line's own, from its widths (r.yh, or widthHorizon
+// where no inlier lay above it to drop), and must lie in the region: a
+// camera looking down sees no horizon, and far above the frame the two
+// models agree. Close to the horizon a row's error grows as 1/u²: the
+// curve is fitted to the inliers more than a tenth of the near inlier's
+// height below the horizon, and used from the near end up to perspTop:
+// no nearer the horizon than that, and only while it stays within a
+// quarter frame width of the image and within 4·maxSlope of the vertical
+// (about 86°); beyond perspTop, its tangent there. Both models have
+// three parameters; the curve is taken when its weighted squared
+// residuals over the same inliers (the unclipped ones when there are
+// three or more, as in refine) are under half the quadratic's. With
+// lens distortion neither model is exact; fisheye-tight's lines mostly
+// fall short of that margin.
+func (c *Classical) perspFit(r *fitResult, l bandLayout, ww int) {
+	r.perspOK = false
+	yh := r.yh
+	if math.IsInf(yh, -1) {
+		// No inlier above the horizon to drop: the line ends below it.
+		var ok bool
+		if yh, _, _, ok = c.widthHorizon(r, l); !ok {
+			return
+		}
+	}
+	if yh < float64(l.y0) || yh >= r.yHi {
+		return
+	}
+	nu := 0
+	for _, i := range r.bands {
+		if i >= 0 && !c.cands[i].sat {
+			nu++
+		}
+	}
+	unclipped := nu >= 3
+	top := yh + 0.1*(r.yHi-yh)
+	p, ok := c.perspAt(r, l, yh, top, unclipped)
+	if !ok {
+		return
+	}
+	var ssQ, ssP float64
+	for _, i := range r.bands {
+		if i < 0 || c.cands[i].y < top || (unclipped && c.cands[i].sat) {
+			continue
+		}
+		cd := &c.cands[i]
+		wt := c.weight(cd, l)
+		dq, dp := cd.x-r.centre.x(cd.y), cd.x-p.x(cd.y)
+		ssQ += wt * dq * dq
+		ssP += wt * dp * dp
+	}
+	if ssP >= 0.5*ssQ {
+		return
+	}
+	y := r.yHi
+	for ; y > top; y-- {
+		x := p.x(y)
+		if math.Abs(p.slope(y)) > 4*maxSlope || x < -0.25*float64(ww) || x > 1.25*float64(ww) {
+			break
+		}
+	}
+	r.persp, r.perspOK, r.perspTop = p, true, math.Min(y+1, r.yHi)
 }
 
 // longestGap is the longest unsupported stretch between two supporting
@@ -281,8 +389,11 @@ func (r *fitResult) marks(minLen int) int {
 
 // slopeAt is dx/dy of xAt at row y.
 func (r *fitResult) slopeAt(y float64) float64 {
-	if y > r.yHi && r.bridged {
+	switch {
+	case y > r.yHi && r.bridged:
 		return r.nearSlope
+	case r.perspOK:
+		return r.persp.slope(math.Min(math.Max(y, r.perspTop), r.yHi))
 	}
 	return r.centre.slope(math.Min(math.Max(y, r.yLo), r.yHi))
 }
@@ -791,6 +902,42 @@ func addNormal(A *[3][3]float64, B *[3]float64, v [3]float64, w, x float64) {
 // lies above every inlier, or when the inliers above it narrow away too
 // (the horizon misjudged: they are the line's own far stretch).
 func (c *Classical) nearHorizon(res *fitResult, l bandLayout) (yh float64, ok bool) {
+	yh, lo, b, ok := c.widthHorizon(res, l)
+	if !ok || yh <= lo {
+		return 0, false
+	}
+	// What lies above must not narrow away as the floor does (at a
+	// quarter of the near half's rate or more): a far stretch of the line
+	// whose near half's widths were misjudged (glare, wear) does, an
+	// upright or a person standing on it does not.
+	var sw, sy, syy, sx, sxy float64
+	n := 0
+	for _, i := range res.bands {
+		if i < 0 || c.cands[i].y >= yh {
+			continue
+		}
+		cd := &c.cands[i]
+		y := cd.y - yh
+		sw++
+		sy += y
+		syy += y * y
+		sx += cd.w
+		sxy += y * cd.w
+		n++
+	}
+	if det := sw*syy - sy*sy; n >= 4 && det > 1e-9*sw*sw {
+		if bUp := (sw*sxy - sy*sx) / det; bUp > 0.25*b {
+			return 0, false
+		}
+	}
+	return yh, true
+}
+
+// widthHorizon is the row where the width profile of res's near half
+// runs out (see nearHorizon), with the row lo of its far inlier and the
+// profile's narrowing b (dw/dy). ok is false without perspective to judge
+// by or over too short a stretch.
+func (c *Classical) widthHorizon(res *fitResult, l bandLayout) (yh, lo, b float64, ok bool) {
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for _, i := range res.bands {
 		if i >= 0 {
@@ -821,41 +968,14 @@ func (c *Classical) nearHorizon(res *fitResult, l bandLayout) (yh float64, ok bo
 	// frame's edge says little of how the line narrows.
 	det := sw*syy - sy*sy
 	if n < 6 || det <= 1e-9*sw*sw || hi-yTop < 0.5*(hi-mid) {
-		return 0, false
+		return 0, lo, 0, false
 	}
-	b := (sw*sxy - sy*sx) / det // dw/dy: positive when the line narrows away
-	a := (sx - b*sy) / sw       // width at row hi
+	b = (sw*sxy - sy*sx) / det // dw/dy: positive when the line narrows away
+	a := (sx - b*sy) / sw      // width at row hi
 	if b <= 0 || a <= 0 {
-		return 0, false
+		return 0, lo, 0, false
 	}
-	yh = hi - a/b
-	if yh <= lo {
-		return 0, false
-	}
-	// What lies above must not narrow away as the floor does (at a
-	// quarter of the near half's rate or more): a far stretch of the line
-	// whose near half's widths were misjudged (glare, wear) does, an
-	// upright or a person standing on it does not.
-	sw, sy, syy, sx, sxy, n = 0, 0, 0, 0, 0, 0
-	for _, i := range res.bands {
-		if i < 0 || c.cands[i].y >= yh {
-			continue
-		}
-		cd := &c.cands[i]
-		y := cd.y - yh
-		sw++
-		sy += y
-		syy += y * y
-		sx += cd.w
-		sxy += y * cd.w
-		n++
-	}
-	if det := sw*syy - sy*sy; n >= 4 && det > 1e-9*sw*sw {
-		if bUp := (sw*sxy - sy*sx) / det; bUp > 0.25*b {
-			return 0, false
-		}
-	}
-	return yh, true
+	return hi - a/b, lo, b, true
 }
 
 // cutAbove drops res's inliers above row yh and returns its score and

@@ -136,3 +136,107 @@ func TestNearHorizonShortNearHalf(t *testing.T) {
 		t.Errorf("inliers from row %.1f: the far stretch was dropped", r.yLo)
 	}
 }
+
+// TestPerspFitPinhole: a path on the floor seen by a low camera (5 cm,
+// pitched 3° up, as low-camera) bends in the image towards the horizon
+// far more than a quadratic in the image can follow. The candidates are
+// pinhole projections (Hartley & Zisserman ch. 6, as in
+// TestNearHorizonPinhole) where a row scan could measure the stripe (1 px
+// wide or more, within 70° of the image vertical), with ±0.25 px and ±3 %
+// of measurement noise. Beyond the far
+// candidate, up to where perspFit stops the curve (perspTop), the
+// reported centreline must lie within 3 px of the projection on a bend
+// (the scorer's tolerance at this width is 5 px; the quadratic's tangent
+// is off by more than 10 px there), and on a straight path within 0.5 px
+// from the far inlier on.
+func TestPerspFitPinhole(t *testing.T) {
+	const (
+		w, h    = 320, 240
+		f       = 260.0
+		cx, cy  = 160.0, 120.0
+		camH    = 0.05
+		pitch   = -3 * math.Pi / 180
+		stripeW = 0.05
+	)
+	tests := map[string]struct {
+		x0, theta, kappa float64
+		tol              float64 // px from the projection, perspTop to the near end
+		quadOff          float64 // the quadratic must be off by more somewhere
+	}{
+		"right bend, 3 m radius": {-0.05, 0, 1 / 3.0, 3, 10},
+		"left bend, 2 m radius":  {0.05, 0.1, -1 / 2.0, 3, 10},
+		"straight, slanted":      {-0.02, 0.1, 0, 0.5, 0},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			project := func(y float64) (x, wd float64, ok bool) {
+				d, zc := floorAt(y, f, cy, camH, pitch)
+				if d <= 0.08 || d > 30 {
+					return 0, 0, false
+				}
+				X := tc.x0 + tc.theta*d + tc.kappa*d*d/2
+				return cx + f*X/zc, f * stripeW / zc, true
+			}
+			c, err := NewClassical(DefaultConfig())
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer c.Close()
+			c.hairline = 0.006 * w
+			l := bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
+			byBand := make([][2]int, l.n)
+			r := &fitResult{centre: curve{y0: float64(l.y1), scale: float64(l.y1 - l.y0)}, bands: make([]int, l.n)}
+			for k := 0; k < l.n; k++ {
+				lo := len(c.cands)
+				r.bands[k] = -1
+				y := l.centre(k)
+				x, wd, ok := project(y)
+				xa, _, _ := project(y - 0.5)
+				xb, _, _ := project(y + 0.5)
+				if ok && wd >= 1 && math.Abs(xb-xa) <= math.Tan(70*math.Pi/180) && x > 0 && x < w {
+					r.bands[k] = len(c.cands)
+					// Measurement noise: ±0.25 px in position, ±3 % in width.
+					jx, jw := 0.25*math.Sin(1.7*float64(k)), 1+0.03*math.Cos(2.3*float64(k))
+					c.cands = append(c.cands, candidate{band: k, y: y, x: x + jx, w: wd * jw, contrast: 0.3, snr: 20})
+				}
+				byBand[k] = [2]int{lo, len(c.cands)}
+			}
+			c.primeScores(w)
+			c.refine(r, l, w, byBand, selector{})
+			if !r.ok {
+				t.Fatal("no fit")
+			}
+			quad := *r
+			c.perspFit(r, l, w)
+			t.Logf("horizon %.2f (pinhole %.2f), inliers %.1f–%.1f, perspective curve %v down to row %.1f",
+				r.persp.yh, cy-f*math.Tan(pitch), r.yLo, r.yHi, r.perspOK, r.perspTop)
+			worst, worstQ, worstY := 0.0, 0.0, 0.0
+			from := r.yLo
+			if r.perspOK {
+				from = r.perspTop
+			}
+			for y := math.Ceil(from); y <= r.yHi; y++ {
+				xt, _, _ := project(y)
+				if e := math.Abs(r.xAt(y) - xt); e > worst {
+					worst, worstY = e, y
+				}
+				worstQ = math.Max(worstQ, math.Abs(quad.xAt(y)-xt))
+			}
+			t.Logf("rows %.0f–%.0f: worst %.2f px (row %.0f); the quadratic's worst %.2f px", math.Ceil(from), r.yHi, worst, worstY, worstQ)
+			if worst > tc.tol {
+				t.Errorf("centreline %.2f px off the projection at row %.0f (want within %.1f)", worst, worstY, tc.tol)
+			}
+			if tc.kappa != 0 {
+				if !r.perspOK {
+					t.Fatal("no perspective curve on a bend")
+				}
+				if r.perspTop >= r.yLo-3 {
+					t.Errorf("perspective curve stops at row %.1f, not beyond the far inlier at %.1f", r.perspTop, r.yLo)
+				}
+				if worstQ <= tc.quadOff {
+					t.Errorf("the quadratic is within %.2f px too: the case does not tell the models apart", worstQ)
+				}
+			}
+		})
+	}
+}

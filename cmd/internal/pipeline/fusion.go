@@ -46,10 +46,14 @@ const (
 //     confidence stands: agreeing on where a line is says nothing about
 //     whether it goes on, and the classical detector's confidence falls
 //     as a line's end comes near;
-//   - they disagree: "disputed:classical" or "disputed:cnn", whichever
-//     is nearer the prediction (the fallback only if it passed the gate),
-//     with its confidence halved: two detectors that disagree are not to
-//     be trusted;
+//   - they disagree, and the image shows the fallback's line on its near
+//     rows (see near rows below): "disputed:classical" or "disputed:cnn",
+//     whichever is nearer the prediction (the fallback only if it passed
+//     the gate), with its confidence halved: two detectors that disagree
+//     are not to be trusted. A fallback reading the image does not show
+//     is dropped and the classical measurement stands: the network
+//     carries a line on across a dash gap at full confidence, where the
+//     image shows nothing;
 //   - classical found nothing and the fallback's measurement passed the
 //     gate and covers at least three quarters of the lower half of the
 //     frame (the rows guidance steers by; a line that ends or starts in
@@ -219,6 +223,15 @@ func (f *Fused) Detect(img gocv.Mat, hint vision.Hint) vision.Detection {
 				}
 			}
 			return use
+		}
+		// A reading the image does not show on its near rows (the
+		// network carrying a line on across a dash gap or past a line's
+		// end) is no evidence against the classical line: dropped, the
+		// classical measurement stands.
+		if !f.nearSeen(float64(img.Rows())) {
+			f.FallbackGated++
+			d.Reason = joinReason(d.Reason, fmt.Sprintf("cnn ignored (%.0f px off): the image does not show its line on all its near rows", diff))
+			return d
 		}
 		f.Disagreements++
 		use, who := d, d.Method

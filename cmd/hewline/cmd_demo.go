@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -46,6 +47,7 @@ type demoOutcome struct {
 	job            demoJob
 	w, h           int
 	follow         string
+	tags           []string // the scene's (synth.Scenario.Tags)
 	res            *clipResult
 	plain          *score.Result // the reference follower's score (-baseline)
 	render, replay time.Duration
@@ -166,7 +168,7 @@ func runDemoJob(ctx context.Context, j demoJob, dir string, o replayOptions, bas
 	if j.w > 0 {
 		sc = sc.Resized(j.w, j.h)
 	}
-	oc := &demoOutcome{job: j, w: sc.Width, h: sc.Height, follow: followOf(sc)}
+	oc := &demoOutcome{job: j, w: sc.Width, h: sc.Height, follow: followOf(sc), tags: sc.Tags}
 	o.follow = oc.follow
 	base := filepath.Join(dir, j.base())
 	clip, truthPath := base+".avi", base+".truth.ndjson"
@@ -345,6 +347,13 @@ func demoTables(done []*demoOutcome) string {
 		}
 	}
 	score.WriteTable(&b, over)
+	if set := cameraSet(done); len(set) > 0 {
+		b.WriteString("\n### Dashed markings, low cameras and small frames\n\n")
+		b.WriteString("The scenes of cheap vehicle cameras, over every size rendered: dashed and dotted lines\n")
+		b.WriteString("(tags `dashed`, `dotted`), the grazing low camera (`grazing`), and every scene, stripe and\n")
+		b.WriteString("lane, at 320×240 and smaller; the last row counts each clip once.\n\n")
+		score.WriteTable(&b, set)
+	}
 	for _, k := range keys {
 		g := groups[k]
 		fmt.Fprintf(&b, "\n### %d×%d\n\n", g.w, g.h)
@@ -367,6 +376,52 @@ func demoTables(done []*demoOutcome) string {
 	b.WriteString("\n### Reliability of the detector's stated confidence (all clips)\n\n")
 	score.WriteReliability(&b, score.Combine("all", all))
 	return b.String()
+}
+
+// cameraSet combines the clips of done into the rows of the cheap-camera
+// table (see demoTables): dashed or dotted scenes, low-camera scenes,
+// frames of 320×240 or smaller, and all of those, each clip once. It is
+// empty when done has none of them.
+func cameraSet(done []*demoOutcome) []*score.Result {
+	has := func(oc *demoOutcome, tags ...string) bool {
+		for _, t := range oc.tags {
+			if slices.Contains(tags, t) {
+				return true
+			}
+		}
+		return false
+	}
+	var dashed, low, small, union []*score.Result
+	for _, oc := range done {
+		in := false
+		if has(oc, "dashed", "dotted") {
+			dashed, in = append(dashed, oc.res.score), true
+		}
+		if has(oc, "grazing") {
+			low, in = append(low, oc.res.score), true
+		}
+		if oc.w*oc.h <= 320*240 {
+			small, in = append(small, oc.res.score), true
+		}
+		if in {
+			union = append(union, oc.res.score)
+		}
+	}
+	var rows []*score.Result
+	for _, g := range []struct {
+		name string
+		rs   []*score.Result
+	}{
+		{"dashed and dotted", dashed},
+		{"low camera", low},
+		{"320×240 and smaller", small},
+		{"all of these", union},
+	} {
+		if len(g.rs) > 0 {
+			rows = append(rows, score.Combine(fmt.Sprintf("%s (%d clips)", g.name, len(g.rs)), g.rs))
+		}
+	}
+	return rows
 }
 
 // replaceBetween replaces the text between two marker lines of a file.

@@ -1,11 +1,14 @@
 package main
 
 import (
+	"math"
 	"os"
 	"path/filepath"
 	"reflect"
 	"strings"
 	"testing"
+
+	"github.com/hewline/hewline/guidance/score"
 )
 
 func TestDemoJobs(t *testing.T) {
@@ -74,5 +77,44 @@ func TestDemoSizesAndBaseline(t *testing.T) {
 	b, _ := os.ReadFile(readme)
 	if s := string(b); strings.Contains(s, "old") || !strings.Contains(s, "### 160×120") || !strings.HasSuffix(s, "<!-- scores:end -->\ntail\n") {
 		t.Errorf("README not filled between the markers:\n%s", s)
+	}
+}
+
+// TestCameraSet: the cheap-camera rows combine dashed or dotted scenes,
+// grazing low-camera scenes and every clip of 320×240 or less, and count
+// a clip in several groups once in the last row.
+func TestCameraSet(t *testing.T) {
+	clip := func(tags []string, w, h, visible, correct int) *demoOutcome {
+		return &demoOutcome{w: w, h: h, tags: tags, res: &clipResult{score: &score.Result{Frames: visible, VisibleFrames: visible, CorrectFrames: correct}}}
+	}
+	done := []*demoOutcome{
+		clip([]string{"dashed"}, 640, 480, 100, 90),
+		clip([]string{"dotted"}, 160, 120, 100, 100),
+		clip([]string{"grazing", "horizon"}, 1280, 720, 100, 95),
+		clip([]string{"glare"}, 320, 240, 100, 80),
+		clip([]string{"glare"}, 640, 480, 100, 10), // in no group
+	}
+	want := map[string]float64{
+		"dashed and dotted (2 clips)":   0.95,
+		"low camera (1 clips)":          0.95,
+		"320×240 and smaller (2 clips)": 0.90,
+		"all of these (4 clips)":        0.9125,
+	}
+	rows := cameraSet(done)
+	if len(rows) != len(want) {
+		t.Fatalf("%d rows, want %d", len(rows), len(want))
+	}
+	for _, r := range rows {
+		w, ok := want[r.Name]
+		if !ok {
+			t.Errorf("unexpected row %q", r.Name)
+			continue
+		}
+		if got := r.Recall(); math.Abs(got-w) > 1e-9 {
+			t.Errorf("%s: recall %.4f, want %.4f", r.Name, got, w)
+		}
+	}
+	if rows := cameraSet(done[4:]); len(rows) != 0 {
+		t.Errorf("%d rows from a clip in no group, want none", len(rows))
 	}
 }

@@ -351,7 +351,7 @@ func demoTables(done []*demoOutcome) string {
 		b.WriteString("\n### Dashed markings, low cameras and small frames\n\n")
 		b.WriteString("The scenes of cheap vehicle cameras, over every size rendered: dashed and dotted lines\n")
 		b.WriteString("(tags `dashed`, `dotted`), the grazing low camera (`grazing`), and every scene, stripe and\n")
-		b.WriteString("lane, at 320×240 and smaller; the last row counts each clip once.\n\n")
+		b.WriteString("lane, at 320×240 and smaller; the last row counts each clip once. Errors are in each clip's own\npixels.\n\n")
 		score.WriteTable(&b, set)
 	}
 	for _, k := range keys {

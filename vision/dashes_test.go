@@ -113,22 +113,9 @@ func TestPerspLine(t *testing.T) {
 	}
 	for name, tc := range tests {
 		t.Run(name, func(t *testing.T) {
-			p := tc.pitchDeg * math.Pi / 180
-			project := func(y float64) (x, wd float64, ok bool) {
-				d, zc := floorAt(y, f, cy, camH, p)
-				if d <= 0 || d > 7 {
-					return 0, 0, false
-				}
-				X := tc.x0 + tc.theta*d + tc.kappa*d*d/2
-				return cx + f*X/zc, f * stripeW / zc, true
-			}
-			c, err := NewClassical(DefaultConfig())
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer c.Close()
-			c.hairline = 0.006 * w
-			l := bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
+			project := floorPath{f: f, cx: cx, cy: cy, camH: camH, pitch: tc.pitchDeg * math.Pi / 180,
+				x0: tc.x0, theta: tc.theta, kappa: tc.kappa, stripeW: stripeW, dMax: 7}.at
+			c, l := pinholeSetup(t, w, h)
 			r := &fitResult{ok: true, bands: make([]int, l.n), yLo: math.Inf(1), yHi: math.Inf(-1)}
 			for k := range r.bands {
 				r.bands[k] = -1
@@ -455,4 +442,33 @@ func floorAt(y, f, cy, camH, pitch float64) (d, zc float64) {
 	m := (y - cy) / f
 	d = camH * (math.Cos(pitch) - m*math.Sin(pitch)) / (m*math.Cos(pitch) + math.Sin(pitch))
 	return d, d*math.Cos(pitch) + camH*math.Sin(pitch)
+}
+
+// pinholeSetup is a default detector prepared to fit candidates on a
+// w×h frame in 80 bands of 3 rows, as the pinhole tests place them.
+func pinholeSetup(t *testing.T, w, h int) (*Classical, bandLayout) {
+	t.Helper()
+	c := defaultDetector(t)
+	c.hairline = 0.006 * float64(w)
+	return c, bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
+}
+
+// floorPath is a path on a flat floor seen by a pinhole camera (see
+// floorAt): lateral offset X = x0 + θ·D + κ·D²/2 at floor distance D
+// ahead, marked by a stripe stripeW wide, seen for D in (dMin, dMax].
+type floorPath struct {
+	f, cx, cy, camH, pitch float64
+	x0, theta, kappa       float64
+	stripeW, dMin, dMax    float64
+}
+
+// at is the path's column at image row y and the stripe's image width
+// there; ok is false off the seen stretch (and above the horizon).
+func (p floorPath) at(y float64) (x, wd float64, ok bool) {
+	d, zc := floorAt(y, p.f, p.cy, p.camH, p.pitch)
+	if d <= p.dMin || d > p.dMax {
+		return 0, 0, false
+	}
+	X := p.x0 + p.theta*d + p.kappa*d*d/2
+	return p.cx + p.f*X/zc, p.f * p.stripeW / zc, true
 }

@@ -5,6 +5,16 @@ import (
 	"testing"
 )
 
+// lowCam is the low camera of the pinhole tests, lowW×lowH:
+// focal length 260 px, 5 cm above the floor, pitched 3° up (as the
+// low-camera scene), looking at a 50 mm stripe from 8 cm to 30 m ahead.
+const lowW, lowH = 320, 240
+
+var lowCam = floorPath{f: 260, cx: 160, cy: 120, camH: 0.05, pitch: -3 * math.Pi / 180, stripeW: 0.05, dMin: 0.08, dMax: 30}
+
+// horizon is the image row of the floor's horizon.
+func (p floorPath) horizon() float64 { return p.cy - p.f*math.Tan(p.pitch) }
+
 // TestNearHorizonPinhole: a straight 50 mm stripe on the floor seen by a
 // pinhole camera 5 cm above it, pitched 3° up (as low-camera; Hartley &
 // Zisserman, "Multiple View Geometry", ch. 6: depth along the optical
@@ -16,29 +26,11 @@ import (
 // no candidate above it, and it must cover at least 90 % of the floor
 // below the horizon (guidedSpan) while spanning under half the region.
 func TestNearHorizonPinhole(t *testing.T) {
-	const (
-		w, h    = 320, 240
-		f       = 260.0
-		cx, cy  = 160.0, 120.0
-		camH    = 0.05
-		pitch   = -3 * math.Pi / 180
-		stripeW = 0.05
-	)
-	yHorizon := cy - f*math.Tan(pitch)
-	geom := func(y float64) (x, wd float64, ok bool) {
-		d, zc := floorAt(y, f, cy, camH, pitch)
-		if d <= 0.08 || d > 30 {
-			return 0, 0, false
-		}
-		return cx + f*(-0.02+0.1*d)/zc, f * stripeW / zc, true
-	}
-	c, err := NewClassical(DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer c.Close()
-	c.hairline = 0.006 * w
-	l := bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
+	path := lowCam
+	path.x0, path.theta = -0.02, 0.1
+	yHorizon := path.horizon()
+	geom := path.at
+	c, l := pinholeSetup(t, lowW, lowH)
 	xFar, _, _ := geom(yHorizon + 3)
 	byBand := make([][2]int, l.n)
 	for k := 0; k < l.n; k++ {
@@ -61,8 +53,8 @@ func TestNearHorizonPinhole(t *testing.T) {
 			r.bands[k] = byBand[k][0]
 		}
 	}
-	c.primeScores(w)
-	c.refine(r, l, w, byBand, selector{})
+	c.primeScores(lowW)
+	c.refine(r, l, lowW, byBand, selector{})
 	if !r.ok {
 		t.Fatal("no fit")
 	}
@@ -77,7 +69,7 @@ func TestNearHorizonPinhole(t *testing.T) {
 	// (down to widths of 1 px): judged against the floor, not the whole
 	// region, it is not a short line.
 	roiSpan := (r.yHi - r.yLo + float64(l.step)) / float64(l.y1-l.y0)
-	gs := guidedSpan(r, l, 0.8*h)
+	gs := guidedSpan(r, l, 0.8*lowH)
 	t.Logf("span %.2f of the region, %.2f of the floor", roiSpan, gs)
 	if gs < 0.9 || roiSpan > 0.5 {
 		t.Errorf("span %.2f of the floor (want at least 0.9), %.2f of the region", gs, roiSpan)
@@ -150,14 +142,6 @@ func TestNearHorizonShortNearHalf(t *testing.T) {
 // is off by more than 10 px there), and on a straight path within 0.5 px
 // from the far inlier on.
 func TestPerspFitPinhole(t *testing.T) {
-	const (
-		w, h    = 320, 240
-		f       = 260.0
-		cx, cy  = 160.0, 120.0
-		camH    = 0.05
-		pitch   = -3 * math.Pi / 180
-		stripeW = 0.05
-	)
 	tests := map[string]struct {
 		x0, theta, kappa float64
 		tol              float64 // px from the projection, perspTop to the near end
@@ -169,21 +153,10 @@ func TestPerspFitPinhole(t *testing.T) {
 	}
 	for name, tc := range tests {
 		t.Run(name, func(t *testing.T) {
-			project := func(y float64) (x, wd float64, ok bool) {
-				d, zc := floorAt(y, f, cy, camH, pitch)
-				if d <= 0.08 || d > 30 {
-					return 0, 0, false
-				}
-				X := tc.x0 + tc.theta*d + tc.kappa*d*d/2
-				return cx + f*X/zc, f * stripeW / zc, true
-			}
-			c, err := NewClassical(DefaultConfig())
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer c.Close()
-			c.hairline = 0.006 * w
-			l := bandLayout{x0: 0, x1: w, y0: 0, y1: h, step: 3, n: 80}
+			path := lowCam
+			path.x0, path.theta, path.kappa = tc.x0, tc.theta, tc.kappa
+			project := path.at
+			c, l := pinholeSetup(t, lowW, lowH)
 			byBand := make([][2]int, l.n)
 			r := &fitResult{centre: curve{y0: float64(l.y1), scale: float64(l.y1 - l.y0)}, bands: make([]int, l.n)}
 			for k := 0; k < l.n; k++ {
@@ -193,7 +166,7 @@ func TestPerspFitPinhole(t *testing.T) {
 				x, wd, ok := project(y)
 				xa, _, _ := project(y - 0.5)
 				xb, _, _ := project(y + 0.5)
-				if ok && wd >= 1 && math.Abs(xb-xa) <= math.Tan(70*math.Pi/180) && x > 0 && x < w {
+				if ok && wd >= 1 && math.Abs(xb-xa) <= math.Tan(70*math.Pi/180) && x > 0 && x < lowW {
 					r.bands[k] = len(c.cands)
 					// Measurement noise: ±0.25 px in position, ±3 % in width.
 					jx, jw := 0.25*math.Sin(1.7*float64(k)), 1+0.03*math.Cos(2.3*float64(k))
@@ -201,15 +174,19 @@ func TestPerspFitPinhole(t *testing.T) {
 				}
 				byBand[k] = [2]int{lo, len(c.cands)}
 			}
-			c.primeScores(w)
-			c.refine(r, l, w, byBand, selector{})
+			c.primeScores(lowW)
+			c.refine(r, l, lowW, byBand, selector{})
 			if !r.ok {
 				t.Fatal("no fit")
 			}
 			quad := *r
-			c.perspFit(r, l, w)
-			t.Logf("horizon %.2f (pinhole %.2f), inliers %.1f–%.1f, perspective curve %v down to row %.1f",
-				r.persp.yh, cy-f*math.Tan(pitch), r.yLo, r.yHi, r.perspOK, r.perspTop)
+			c.perspFit(r, l, lowW)
+			if r.perspOK {
+				t.Logf("perspective curve down to row %.1f, horizon %.2f (pinhole %.2f), inliers %.1f–%.1f",
+					r.perspTop, r.persp.yh, path.horizon(), r.yLo, r.yHi)
+			} else {
+				t.Logf("no perspective curve (the quadratic fits as well), inliers %.1f–%.1f", r.yLo, r.yHi)
+			}
 			worst, worstQ, worstY := 0.0, 0.0, 0.0
 			from := r.yLo
 			if r.perspOK {

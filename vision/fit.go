@@ -147,8 +147,10 @@ func (r *fitResult) xAt(y float64) float64 {
 	switch {
 	case y > r.yHi && r.bridged:
 		return r.nearX + r.nearSlope*(y-r.yHi)
+	case y > r.yHi && r.perspOK:
+		return r.persp.x(r.yHi) + r.persp.slope(r.yHi)*(y-r.yHi)
 	case y > r.yHi:
-		return r.modelX(r.yHi) + r.modelSlope(r.yHi)*(y-r.yHi)
+		return r.centre.x(r.yHi) + r.centre.slope(r.yHi)*(y-r.yHi)
 	case r.perspOK && y < r.perspTop:
 		return r.persp.x(r.perspTop) + r.persp.slope(r.perspTop)*(y-r.perspTop)
 	case r.perspOK:
@@ -159,22 +161,6 @@ func (r *fitResult) xAt(y float64) float64 {
 		return r.centre.x(r.yLo) + r.centre.slope(r.yLo)*(y-r.yLo)
 	}
 	return r.centre.x(y)
-}
-
-// modelX and modelSlope are the centreline's model at row y (the
-// perspective curve where r has one, else the quadratic) and its dx/dy.
-func (r *fitResult) modelX(y float64) float64 {
-	if r.perspOK {
-		return r.persp.x(y)
-	}
-	return r.centre.x(y)
-}
-
-func (r *fitResult) modelSlope(y float64) float64 {
-	if r.perspOK {
-		return r.persp.slope(y)
-	}
-	return r.centre.slope(y)
 }
 
 // dashed says whether the measured stretch has gaps of its own: a run of

@@ -109,6 +109,12 @@ func (lc LaneConfig) Validate() error {
 //     the centre's points band by band (localCentre), since one
 //     quadratic cannot follow an S-bend in view.
 //
+// Beyond the rows it was fitted on, a boundary runs on along its end
+// tangents (fitResult.xAt), wherever it is used there: in the next
+// frame's gate, in the candidates it takes from the other line, at the
+// reference row. A short piece of a bend, its quadratic run out, can
+// land on the other boundary.
+//
 // A Lane keeps state between frames (the learned width and the last
 // boundaries): use one per clip or camera, not safe for concurrent use.
 type Lane struct {
@@ -150,7 +156,7 @@ type Lane struct {
 	// prev: boundaries and centre at the reference row (input pixels,
 	// degrees) in the last frame with a detection.
 	prevSide   [2]sideAt
-	prevCurve  [2]curve // the boundaries in working pixels
+	prevCurve  [2]bound // the boundaries in working pixels
 	prevCentre sideAt
 	prevOK     bool
 	fits       [3]fitResult
@@ -269,13 +275,13 @@ func (ln *Lane) Detect(img gocv.Mat, hint Hint) Detection {
 		d.Reason = "no lane line in much of the near half"
 	}
 	if both {
-		m.WidthPx = (right.centre.x(yRefW) - left.centre.x(yRefW)) / fr.sx
+		m.WidthPx = (right.xAt(yRefW) - left.xAt(yRefW)) / fr.sx
 	} else {
 		seen, s := left, 0
 		if seen == nil {
 			seen, s = right, 1
 		}
-		m.WidthPx = ln.across(l, bandOf(l, yRefW), s, seen.centre.slope(yRefW)) / fr.sx
+		m.WidthPx = ln.across(l, bandOf(l, yRefW), s, seen.slopeAt(yRefW)) / fr.sx
 		if ln.lc.WidthPx > 0 && ln.lc.Floor == nil {
 			m.WidthPx = ln.lc.WidthPx
 		}
@@ -511,7 +517,7 @@ func (ln *Lane) freeSides(fr frameGeom, l bandLayout, byBand [][2]int, pols []bo
 	for i := 0; i < n; i++ {
 		for j := i + 1; j < n; j++ {
 			a, b := &ln.fits[i], &ln.fits[j]
-			if a.centre.x(yRefW) > b.centre.x(yRefW) {
+			if a.xAt(yRefW) > b.xAt(yRefW) {
 				a, b = b, a
 			}
 			if s := a.score + b.score; s > bestScore && ln.pair(l, a, b) {
@@ -524,7 +530,7 @@ func (ln *Lane) freeSides(fr frameGeom, l bandLayout, byBand [][2]int, pols []bo
 	}
 	// One line: which side, if either, does the tracked lane put there?
 	r := &ln.fits[0]
-	x := fr.toInX(r.centre.x(yRefW)) - fr.inW/2
+	x := fr.toInX(r.xAt(yRefW)) - fr.inW/2
 	tol := 3 * math.Hypot(math.Max(hint.OffsetSigma, 0.02*fr.inW), 0.01*fr.inW)
 	dl := math.Abs(x - (hint.OffsetPx + ln.prevSide[0].off - ln.prevCentre.off))
 	dr := math.Abs(x - (hint.OffsetPx + ln.prevSide[1].off - ln.prevCentre.off))
@@ -541,7 +547,7 @@ func (ln *Lane) freeSides(fr frameGeom, l bandLayout, byBand [][2]int, pols []bo
 func (ln *Lane) markTaken(fr frameGeom, r *fitResult) {
 	for i := range ln.c.cands {
 		cd := &ln.c.cands[i]
-		if math.Abs(cd.x-r.centre.x(cd.y)) <= math.Max(1.5*r.width.x(cd.y), 2*tolerance(cd, fr.ww)) {
+		if math.Abs(cd.x-r.xAt(cd.y)) <= math.Max(1.5*r.width.x(cd.y), 2*tolerance(cd, fr.ww)) {
 			cd.taken = true
 		}
 	}
@@ -1150,25 +1156,25 @@ func (ln *Lane) remember(fr frameGeom, l bandLayout, d *Detection, a, b *fitResu
 		}
 		k := bandOf(l, yRefW)
 		k0, k1 := min(k+4, l.n-1), max(k-4, 0) // k0 lower in the image
-		w = ln.across(l, k, s, seen.centre.slope(yRefW))
-		w0 := ln.across(l, k0, s, seen.centre.slope(l.centre(k0)))
-		w1 := ln.across(l, k1, s, seen.centre.slope(l.centre(k1)))
+		w = ln.across(l, k, s, seen.slopeAt(yRefW))
+		w0 := ln.across(l, k0, s, seen.slopeAt(l.centre(k0)))
+		w1 := ln.across(l, k1, s, seen.slopeAt(l.centre(k1)))
 		if w0 > 0 && w1 > 0 && k0 != k1 {
 			dw = (w0 - w1) / (l.centre(k0) - l.centre(k1))
 		}
 	}
-	beside := func(q curve, sign float64) curve {
-		q.a += sign * (w + dw*(q.y0-yRefW))
-		q.b += sign * dw * q.scale
+	beside := func(q bound, sign float64) bound {
+		q.q.a += sign * (w + dw*(q.q.y0-yRefW))
+		q.q.b += sign * dw * q.q.scale
 		return q
 	}
 	switch {
 	case a != nil && b != nil:
-		ln.prevCurve = [2]curve{a.centre, b.centre}
+		ln.prevCurve = [2]bound{boundOf(a), boundOf(b)}
 	case a != nil:
-		ln.prevCurve = [2]curve{a.centre, beside(a.centre, 1)}
+		ln.prevCurve = [2]bound{boundOf(a), beside(boundOf(a), 1)}
 	default:
-		ln.prevCurve = [2]curve{beside(b.centre, -1), b.centre}
+		ln.prevCurve = [2]bound{beside(boundOf(b), -1), boundOf(b)}
 	}
 	for s, q := range ln.prevCurve {
 		ln.prevSide[s] = at(q.x(yRefW), q.slope(yRefW))
@@ -1176,3 +1182,22 @@ func (ln *Lane) remember(fr frameGeom, l bandLayout, d *Detection, a, b *fitResu
 	ln.prevCentre = sideAt{off: d.OffsetPx, head: d.HeadingDeg}
 	ln.prevOK = true
 }
+
+// bound is a boundary line kept for the next frame's gate: its quadratic
+// over the rows it was fitted on (lo to hi), run out along its end
+// tangents beyond them, as fitResult.xAt does.
+type bound struct {
+	q      curve
+	lo, hi float64
+}
+
+func boundOf(r *fitResult) bound {
+	return bound{q: r.centre, lo: r.yLo, hi: r.yHi}
+}
+
+func (b bound) x(y float64) float64 {
+	e := math.Min(math.Max(y, b.lo), b.hi)
+	return b.q.x(e) + b.q.slope(e)*(y-e)
+}
+
+func (b bound) slope(y float64) float64 { return b.q.slope(math.Min(math.Max(y, b.lo), b.hi)) }

@@ -559,3 +559,51 @@ type topDown struct{ h float64 }
 
 func (f topDown) toFloor(x, y float64) (X, Z float64, ok bool) { return x, f.h - y, true }
 func (f topDown) toImage(X, Z float64) (x, y float64, ok bool) { return X, f.h - Z, true }
+
+// TestLaneBoundaryTangentEnds: a boundary seen only over the near rows of
+// a bend (the right line of an S-bend leaving the frame's side) is its
+// quadratic over those rows and runs on along its end tangent beyond
+// them, in every use the lane detector makes of it beyond its own rows:
+// the candidates it takes from the other boundary, the gate it sets for
+// the next frame, its place at the reference row. Its quadratic, run out
+// to the top of the region, bends onto the left boundary there; the
+// tangent does not.
+func TestLaneBoundaryTangentEnds(t *testing.T) {
+	const step = 3
+	l := bandLayout{x0: 0, x1: 320, y0: 0, y1: 240, step: step, n: 80}
+	y0, sc := float64(l.y1), float64(l.y1-l.y0)
+	// The right boundary: x = 280 − 60·t + ... with t = (y − 240)/240,
+	// seen from row 160 to 240 (t from −1/3 to 0); its quadratic reaches
+	// x = 100 at the top of the region (t = −1): a + b·t + c·t² there is
+	// 280 − 20 − 160 = 100.
+	q := curve{a: 280, b: 20, c: -160, y0: y0, scale: sc}
+	right := &fitResult{ok: true, centre: q, width: curve{a: 8, y0: y0, scale: sc}, yLo: 160, yHi: 240}
+	if got := q.x(0); math.Abs(got-100) > 1e-9 {
+		t.Fatalf("setup: quadratic at the top %.2f, want 100", got)
+	}
+	c := &Classical{}
+	for k := 0; k < l.n; k++ { // the left boundary, x = 100 in every band
+		c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: 100, w: 8})
+	}
+	ln := &Lane{c: c}
+	fr := frameGeom{inW: 320, inH: 240, sx: 1, sy: 1, ww: 320, wh: 240}
+	ln.markTaken(fr, right)
+	for i := range c.cands {
+		if cd := &c.cands[i]; cd.taken {
+			t.Errorf("left boundary's candidate at row %.1f taken by the right boundary run out", cd.y)
+		}
+	}
+	b := boundOf(right)
+	for _, y := range []float64{0, 60, 120, 160, 200, 240} {
+		want := right.xAt(y) // fitResult's own run-out along the end tangents
+		if y < right.yLo {
+			want = q.x(right.yLo) + q.slope(right.yLo)*(y-right.yLo)
+		}
+		if got := b.x(y); math.Abs(got-want) > 1e-9 || math.Abs(right.xAt(y)-want) > 1e-9 {
+			t.Errorf("row %.0f: gate at %.2f, xAt %.2f, want %.2f", y, got, right.xAt(y), want)
+		}
+		if y < right.yLo && math.Abs(b.x(y)-100) < 60 {
+			t.Errorf("row %.0f: the gate at %.1f lies on the left boundary", y, b.x(y))
+		}
+	}
+}

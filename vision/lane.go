@@ -188,7 +188,7 @@ func (ln *Lane) Close() error { return ln.c.Close() }
 // Reset forgets the learned width and the last boundaries (a new clip).
 func (ln *Lane) Reset() {
 	clear(ln.width)
-	ln.prevOK, ln.wlineOK, ln.fm.ok, ln.calW = false, false, false, 0
+	ln.prevOK, ln.wlineOK, ln.fm.ok, ln.fm.once, ln.calW = false, false, false, false, 0
 	ln.hTried, ln.hFit = 0, 0
 	clear(ln.hcost)
 	clear(ln.hnum)
@@ -781,6 +781,7 @@ func (ln *Lane) learnFloor(l bandLayout, a, b *fitResult) {
 	// A lens the pinhole model does not describe (strong distortion) fits
 	// in few frames: the model is then not used.
 	m.ok = W > 0 && ln.hFit >= 0.5*ln.hTried
+	m.once = m.once || m.ok
 	ln.fm = m
 }
 
@@ -944,15 +945,19 @@ func (ln *Lane) centre(l bandLayout, a, b *fitResult, yRefW float64) (fitResult,
 // such a fit reaches its far inliers across the stretch, and those may
 // be another line crossing its quadratic (a boundary leaving the frame's
 // side in a bend, a piece of the other line beyond it), so midway is no
-// better than a guess. Without the floor (a strong fisheye fits none)
-// the centre stays midway: the learned widths alone put it no better.
+// better than a guess. The same holds, with the learned widths, where
+// the floor model was learned once and is lost for now (frames that fit
+// no horizon, such as a bend where one boundary's fit reaches the other
+// line: lane-s-curve at 1280×720 frames 27–58). A camera whose floor was
+// never learned (a strong fisheye fits none) keeps the centre midway:
+// there the learned widths alone put it no better.
 func (ln *Lane) bandCentre(l bandLayout, a, b *fitResult, fl laneFloor, fw float64, fok bool) (fitResult, bool) {
 	pts := ln.cpts[:0]
 	bareA, bareB := ln.bareRuns(0, l, a), ln.bareRuns(1, l, b)
 	for k := 0; k < l.n; k++ {
 		y := l.centre(k)
 		inA, inB := covers(a, l, y), covers(b, l, y)
-		if fok && inA && inB && bareA[k] != bareB[k] {
+		if (fok || ln.fm.once) && inA && inB && bareA[k] != bareB[k] {
 			inA, inB = !bareA[k], !bareB[k]
 		}
 		var x, wt float64

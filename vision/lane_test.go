@@ -496,7 +496,9 @@ func TestLaneBandCentreBareBoundary(t *testing.T) {
 	tests := map[string]struct {
 		support func(k int) bool // the right boundary's supporting bands
 		noFloor bool
-		wantX   func(k int) float64
+		// floorBefore: the floor model was learned once (floorModel.once)
+		floorBefore bool
+		wantX       func(k int) float64
 	}{
 		"far inliers across a long bare stretch: the centre from the left boundary there": {
 			support: func(k int) bool { return k < 20 || k >= 77 },
@@ -512,6 +514,17 @@ func TestLaneBandCentreBareBoundary(t *testing.T) {
 			noFloor: true,
 			wantX:   func(k int) float64 { return (100 + bent.x(l.centre(k))) / 2 },
 		},
+		"without a floor now but learned before: the centre from the left boundary's learned width there": {
+			support:     func(k int) bool { return k < 20 || k >= 77 },
+			noFloor:     true,
+			floorBefore: true,
+			wantX: func(k int) float64 {
+				if k < 20 || k >= 77 {
+					return (100 + bent.x(l.centre(k))) / 2
+				}
+				return 150
+			},
+		},
 		"a short gap is crossed: midway": {
 			support: func(k int) bool { return k < 20 || k > 22 },
 			wantX:   func(k int) float64 { return (100 + bent.x(l.centre(k))) / 2 },
@@ -524,6 +537,7 @@ func TestLaneBandCentreBareBoundary(t *testing.T) {
 	for name, tc := range tests {
 		t.Run(name, func(t *testing.T) {
 			ln := &Lane{width: make([]float64, l.n), turn: [2][]float64{make([]float64, l.n), make([]float64, l.n)}}
+			ln.fm.once = tc.floorBefore
 			for k := range ln.width {
 				ln.width[k] = 100
 			}

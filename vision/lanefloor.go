@@ -23,6 +23,7 @@ import (
 // neither horizontal nor the image normal once the lane bends.
 type floorModel struct {
 	ok     bool
+	once   bool    // ok at some time since the last reset
 	yh     float64 // horizon row, working pixels
 	k      float64 // forward scale, working pixels
 	w      float64 // lane width W (floor units)

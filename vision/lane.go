@@ -712,7 +712,9 @@ const horizonStep = 4
 // and their spread relative to their mean is the misfit, summed over the
 // recent frames. The horizon with the least misfit is kept, with the mean
 // distance there as the lane's width. A frame that fits no horizon within
-// 5 % (a boundary fitted off the tape somewhere) is left out.
+// 1 % (a boundary fitted off the tape somewhere) is left out, and counts
+// against the model: while fewer than half the recent frames fit, it is
+// not used (floorModel.ok false; a strong fisheye fits none).
 func (ln *Lane) learnFloor(l bandLayout, a, b *fitResult) {
 	pa, pb, yTop := ln.sample(l, a, b)
 	if len(pa) < 5 || len(pb) < 5 {

@@ -621,3 +621,51 @@ func TestLaneBoundaryTangentEnds(t *testing.T) {
 		}
 	}
 }
+
+// TestLaneLearnSkipsBareFrames: a frame where one boundary's fit crosses
+// a long stretch without its support (its far inliers may be another
+// line) is left out of the floor model's horizon search, neither a fit
+// nor a misfit; a frame with both boundaries supported throughout is
+// tried. The lane's widths are learned on both.
+func TestLaneLearnSkipsBareFrames(t *testing.T) {
+	l := bandLayout{x0: 0, x1: 320, y0: 0, y1: 240, step: 3, n: 80}
+	y0, sc := float64(l.y1), float64(l.y1-l.y0)
+	// a straight lane seen from a pitched pinhole: both lines converge on
+	// a horizon 60 rows above the region (x − 160 = ±0.5·(y + 60))
+	line := func(side float64) *fitResult {
+		r := &fitResult{ok: true, centre: curve{a: 160 + side*0.5*(240+60), b: side * 0.5 * sc, y0: y0, scale: sc},
+			yLo: 0, yHi: 240, bands: make([]int, l.n)}
+		return r
+	}
+	for name, tc := range map[string]struct {
+		support   func(k int) bool // the right boundary's supporting bands
+		wantTried bool
+	}{
+		"supported throughout: tried":                      {support: func(int) bool { return true }, wantTried: true},
+		"far inliers across a long bare stretch: left out": {support: func(k int) bool { return k < 20 || k >= 77 }},
+	} {
+		t.Run(name, func(t *testing.T) {
+			ln, err := NewLane(DefaultConfig(), DefaultLaneConfig())
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer ln.Close()
+			ln.width = make([]float64, l.n)
+			ln.turn = [2][]float64{make([]float64, l.n), make([]float64, l.n)}
+			ln.fm = floorModel{cx: 160, cy: 120, f: assumedFocal * 320}
+			a, b := line(-1), line(1)
+			for k := 0; k < l.n; k++ {
+				if !tc.support(k) {
+					b.bands[k] = -1
+				}
+			}
+			ln.learn(l, a, b)
+			if tried := ln.hTried > 0; tried != tc.wantTried {
+				t.Errorf("horizon search tried: %v, want %v", tried, tc.wantTried)
+			}
+			if ln.width[l.n/2] <= 0 {
+				t.Errorf("no width learned mid-region")
+			}
+		})
+	}
+}

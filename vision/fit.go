@@ -149,19 +149,33 @@ func (r *fitResult) xAt(y float64) float64 {
 		return r.nearX + r.nearSlope*(y-r.yHi)
 	case y > r.yHi && r.perspOK:
 		return r.persp.x(r.yHi) + r.persp.slope(r.yHi)*(y-r.yHi)
-	case y > r.yHi:
-		return r.centre.x(r.yHi) + r.centre.slope(r.yHi)*(y-r.yHi)
 	case r.perspOK && y < r.perspTop:
 		return r.persp.x(r.perspTop) + r.persp.slope(r.perspTop)*(y-r.perspTop)
 	case r.perspOK:
 		// A path on the floor bends in the image towards its horizon:
 		// its perspective curve runs on beyond the far inlier.
 		return r.persp.x(y)
-	case y < r.yLo:
-		return r.centre.x(r.yLo) + r.centre.slope(r.yLo)*(y-r.yLo)
 	}
-	return r.centre.x(y)
+	return r.stretch().x(y)
 }
+
+// stretch is a quadratic over the rows lo to hi it was fitted on, run
+// on along its end tangents beyond them.
+type stretch struct {
+	q      curve
+	lo, hi float64
+}
+
+// stretch is r's quadratic over its inliers' rows (xAt without bridges
+// and perspective curve).
+func (r *fitResult) stretch() stretch { return stretch{q: r.centre, lo: r.yLo, hi: r.yHi} }
+
+func (s stretch) x(y float64) float64 {
+	e := math.Min(math.Max(y, s.lo), s.hi)
+	return s.q.x(e) + s.q.slope(e)*(y-e)
+}
+
+func (s stretch) slope(y float64) float64 { return s.q.slope(math.Min(math.Max(y, s.lo), s.hi)) }
 
 // dashed says whether the measured stretch has gaps of its own: a run of
 // bands without support, inside the stretch, at least 5 % of the ROI
@@ -381,7 +395,7 @@ func (r *fitResult) slopeAt(y float64) float64 {
 	case r.perspOK:
 		return r.persp.slope(math.Min(math.Max(y, r.perspTop), r.yHi))
 	}
-	return r.centre.slope(math.Min(math.Max(y, r.yLo), r.yHi))
+	return r.stretch().slope(y)
 }
 
 // fitter holds the fit's scratch memory.

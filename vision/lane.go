@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 
 	"gocv.io/x/gocv"
 )
@@ -156,7 +157,7 @@ type Lane struct {
 	// prev: boundaries and centre at the reference row (input pixels,
 	// degrees) in the last frame with a detection.
 	prevSide   [2]sideAt
-	prevCurve  [2]bound // the boundaries in working pixels
+	prevCurve  [2]stretch // the boundaries in working pixels, run on along their end tangents
 	prevCentre sideAt
 	prevOK     bool
 	fits       [3]fitResult
@@ -660,10 +661,7 @@ func covers(r *fitResult, l bandLayout, y float64) bool {
 // 27–58). The widths are still learned there.
 func (ln *Lane) learn(l bandLayout, a, b *fitResult) {
 	bareA, bareB := ln.bareRuns(0, l, a), ln.bareRuns(1, l, b)
-	bare := false
-	for k := 0; k < l.n; k++ {
-		bare = bare || bareA[k] || bareB[k]
-	}
+	bare := slices.Contains(bareA, true) || slices.Contains(bareB, true)
 	for k := 0; k < l.n; k++ {
 		y := l.centre(k)
 		if !covers(a, l, y) || !covers(b, l, y) {
@@ -1187,18 +1185,18 @@ func (ln *Lane) remember(fr frameGeom, l bandLayout, d *Detection, a, b *fitResu
 			dw = (w0 - w1) / (l.centre(k0) - l.centre(k1))
 		}
 	}
-	beside := func(q bound, sign float64) bound {
+	beside := func(q stretch, sign float64) stretch {
 		q.q.a += sign * (w + dw*(q.q.y0-yRefW))
 		q.q.b += sign * dw * q.q.scale
 		return q
 	}
 	switch {
 	case a != nil && b != nil:
-		ln.prevCurve = [2]bound{boundOf(a), boundOf(b)}
+		ln.prevCurve = [2]stretch{a.stretch(), b.stretch()}
 	case a != nil:
-		ln.prevCurve = [2]bound{boundOf(a), beside(boundOf(a), 1)}
+		ln.prevCurve = [2]stretch{a.stretch(), beside(a.stretch(), 1)}
 	default:
-		ln.prevCurve = [2]bound{beside(boundOf(b), -1), boundOf(b)}
+		ln.prevCurve = [2]stretch{beside(b.stretch(), -1), b.stretch()}
 	}
 	for s, q := range ln.prevCurve {
 		ln.prevSide[s] = at(q.x(yRefW), q.slope(yRefW))
@@ -1206,22 +1204,3 @@ func (ln *Lane) remember(fr frameGeom, l bandLayout, d *Detection, a, b *fitResu
 	ln.prevCentre = sideAt{off: d.OffsetPx, head: d.HeadingDeg}
 	ln.prevOK = true
 }
-
-// bound is a boundary line kept for the next frame's gate: its quadratic
-// over the rows it was fitted on (lo to hi), run out along its end
-// tangents beyond them, as fitResult.xAt does.
-type bound struct {
-	q      curve
-	lo, hi float64
-}
-
-func boundOf(r *fitResult) bound {
-	return bound{q: r.centre, lo: r.yLo, hi: r.yHi}
-}
-
-func (b bound) x(y float64) float64 {
-	e := math.Min(math.Max(y, b.lo), b.hi)
-	return b.q.x(e) + b.q.slope(e)*(y-e)
-}
-
-func (b bound) slope(y float64) float64 { return b.q.slope(math.Min(math.Max(y, b.lo), b.hi)) }

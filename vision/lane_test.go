@@ -607,7 +607,7 @@ func TestLaneBoundaryTangentEnds(t *testing.T) {
 			t.Errorf("left boundary's candidate at row %.1f taken by the right boundary run out", cd.y)
 		}
 	}
-	b := boundOf(right)
+	b := right.stretch()
 	for _, y := range []float64{0, 60, 120, 160, 200, 240} {
 		want := right.xAt(y) // fitResult's own run-out along the end tangents
 		if y < right.yLo {

@@ -127,6 +127,8 @@ type Classical struct {
 	tangentEnds bool
 	dashes      dashMemory  // the last dashed line's gap, for single dashes
 	widthMem    widthMemory // the last trusted line's width profile, for stripes cut by glare
+	rmT, rmW    []float64   // widthFit's points (t, width), scratch
+	rmS, rmS2   []float64   // repeatedMedian's slopes, scratch
 	closed      bool
 }
 

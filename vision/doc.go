@@ -23,7 +23,9 @@
 //     width remembered from the last trusted line in from that edge.
 //   - fit.go: RANSAC over the crossings (with the tracker's prediction as a
 //     gated prior), then refine: width and centre curves by weighted least
-//     squares, crossings whose width disagrees dropped, clipped crossings
+//     squares (the width line robustly: Siegel's repeated median where a
+//     minority of crossings is far off it), crossings whose width
+//     disagrees dropped, clipped crossings
 //     left out of the centre fit where the line has unclipped ones, and
 //     inliers above the line's own horizon (from its near widths) dropped.
 //     Where the horizon lies in the region (a low camera), the reported

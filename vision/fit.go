@@ -675,24 +675,26 @@ func (sel widthSel) keeps(cd *candidate) bool {
 // The fit is robust. A weighted least-squares line comes first; when
 // some crossing lies more than widthOutlier off it and there are at
 // least six, the line is taken again as the repeated-median line of
-// Siegel (1982: for each crossing the median of the slopes to all the
-// others, then the median of those, and the median intercept; it holds
-// while fewer than half the crossings are off), and the least-squares
-// fit is redone over the crossings within widthOutlier of that, when
-// they are at least three quarters of all. A
-// marking's width changes smoothly with the row, so a stretch that is
-// wider (a branch or a tyre mark merged with the stripe, glare beside
+// Siegel (A. F. Siegel, "Robust regression using repeated medians",
+// Biometrika 69(1), 1982, pp. 242-244; cited from memory): for each
+// crossing the median of the slopes to all the others, the median of
+// those as the slope, and the median intercept; it holds while fewer
+// than half the crossings are off. The least-squares fit is then redone
+// over the crossings within widthOutlier of that line, when they are
+// at least three quarters of all.
+//
+// A marking's width changes smoothly with the row, so a stretch that
+// is wider (a tyre mark or a patch merged with the stripe, glare beside
 // it) or narrower (worn edges) pulls a least-squares line towards
-// itself, and then passes refine's width test of the line's own inliers:
-// on branch at 320×240, frame 107, the 24 merged crossings near the
-// camera (34 px) had lifted the profile at the bottom row to 39 px,
-// against the 24 px the 38 single crossings beyond them lead to.
-// Where the repeated-median line explains fewer than three quarters of
-// the crossings, the widths disagree too much to say which are the
-// line's own (a line made of unrelated marks: the rim of a wide lens's
-// image circle and rack posts, fisheye-tight at 320×240, frame 280, rose
-// to confidence 0.54 without this rule), and the least-squares line
-// stands, so that refine's width test drops the odd ones.
+// itself, and its crossings then pass refine's width test of the
+// line's own inliers. Where the repeated-median line explains fewer
+// than three quarters of the crossings, the widths disagree too much to
+// say which are the line's own: a line made of unrelated marks (the rim
+// of a wide lens's image circle and rack posts, fisheye-tight at
+// 320×240, frame 280, reached confidence 0.54 without the rule), or a
+// branch merged with the stripe over much of the near half (branch at
+// 320×240, frame 107: 24 of 62 crossings, 34 px against the 24 px the
+// others lead to). There the least-squares line stands.
 //
 // Scratch memory lives in c.rmT, c.rmW, c.rmS and c.rmS2; the fit
 // allocates only while those grow.

@@ -85,3 +85,33 @@ func TestWidthFitRobust(t *testing.T) {
 		})
 	}
 }
+
+// BenchmarkWidthFitRobust is widthFit's cost on a line of 62 crossings
+// whose 14 nearest are merged with a neighbour (the repeated-median
+// path), and BenchmarkWidthFitClean on the same line without them (the
+// least-squares line alone).
+func BenchmarkWidthFitRobust(b *testing.B) { benchWidthFit(b, 1.45) }
+func BenchmarkWidthFitClean(b *testing.B)  { benchWidthFit(b, 1) }
+
+func benchWidthFit(b *testing.B, merged float64) {
+	l := bandLayout{x0: 0, x1: 320, y0: 0, y1: 240, step: 3, n: 80}
+	c := &Classical{cfg: DefaultConfig(), hairline: 0.006 * 320}
+	r := &fitResult{bands: make([]int, l.n)}
+	for k := range r.bands {
+		r.bands[k] = -1
+		if k < 62 {
+			w := 24 - 0.2*float64(k)
+			if k < 14 {
+				w *= merged
+			}
+			r.bands[k] = len(c.cands)
+			c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: 100, w: w, snr: 20})
+		}
+	}
+	c.widthFit(r, l, 240, 240, widthAll) // grow the scratch memory
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		c.widthFit(r, l, 240, 240, widthAll)
+	}
+}

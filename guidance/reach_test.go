@@ -257,3 +257,39 @@ func TestSeeingAJitteryLineEnd(t *testing.T) {
 		}
 	}
 }
+
+// TestSeeingTheLineEndAfterAStep: the line moves (a bend sweeping across
+// the image as it leaves a wide lens's frame at the side) while its far
+// end runs down 30 rows a frame: 150, 120, 90 rows past the reference
+// row on the three frames that re-lock the track onto it, 60 on the
+// next, then nothing is found. The re-locked track keeps the reach of
+// the frames that confirmed the step, so the falling end (909 rows/s,
+// extrapolated: 30 rows at index 4, 0 at index 5, under the 24 needed
+// ahead) is alarmed at index 5. With the trend started afresh at the
+// re-lock there were only two samples, and the track coasted to the
+// fail-safe, 0.3 s after index 3.
+func TestSeeingTheLineEndAfterAStep(t *testing.T) {
+	tr := newTracker(t, guidance.DefaultConfig())
+	now := lockReaching(t, tr)
+	moved := func(rows float64) guidance.Measurement {
+		m := good(90, 2)
+		m.ReachPx, m.HasReach = rows, true
+		return m
+	}
+	frames := []guidance.Measurement{moved(150), moved(120), moved(90), moved(60), {}, {}, {}, {}}
+	for i, m := range frames {
+		e := tr.Update(now, m)
+		now += 33 * ms
+		switch {
+		case i == 2 && !strings.Contains(e.Reason, "line moved"):
+			t.Fatalf("frame %d: %+v, want the track re-locked onto the moved line", i, e)
+		case i < 5 && (e.State == guidance.Lost || e.Alarm):
+			t.Fatalf("frame %d: %+v, want no alarm before frame 5", i, e)
+		case i == 5:
+			if e.State != guidance.Lost || !e.Alarm || !strings.Contains(e.Reason, "far end running out") {
+				t.Fatalf("frame %d: %+v, want lost with the far end running out", i, e)
+			}
+			return
+		}
+	}
+}

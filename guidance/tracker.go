@@ -149,6 +149,7 @@ type candidate struct {
 	n         int
 	off, head KalmanCV
 	t         time.Duration
+	reach     reachTrack // the reach of the measurements it followed
 }
 
 // NewTracker returns a Tracker in State Seeking, or the Validate error.
@@ -440,6 +441,7 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 			c.off.Update(m.OffsetPx)
 			c.head.Update(m.HeadingDeg)
 			c.n++
+			c.reach.add(now, m)
 		} else {
 			c.active = false
 		}
@@ -448,10 +450,17 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		c.active, c.n, c.t = true, 1, now
 		c.off.Init(m.OffsetPx, t.offsetRateSigma())
 		c.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
+		c.reach.reset()
+		c.reach.add(now, m)
 	}
 	if c.n >= t.cfg.StepConfirmFrames {
-		t.reach.reset()
-		t.reach.add(now, m)
+		// The re-locked track's reach trend is that of the measurements
+		// that confirmed the step: a line that moved as it left the frame
+		// (a fisheye's bend sweeping out at the side) is seen running
+		// out from the next frame on, not after a new trend of
+		// reachMinSamples (fisheye-tight at 1280×720: coasted over 8
+		// frames, to the fail-safe's 0.3 s, with the reach reset here).
+		t.reach.s = append(t.reach.s[:0], c.reach.s...)
 		t.bank.adopt(c.off, c.head)
 		t.heldS = [2]float64{}
 		t.filterT, t.updateT = now, now

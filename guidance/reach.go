@@ -73,6 +73,17 @@ import (
 // dashed-long at 1280×720 alarmed at 3 more dash gaps, recall 0.740 →
 // 0.577).
 //
+// The detector may alternate between the two from frame to frame, the
+// fitted line running on across the stretch on one frame and stopping at
+// the near mark's end on the next (reflections at 160×120, frames
+// 93-106: 48, 88, 86, 42, 86, 86, 34, 32, 86, 24, 80, 86, 14, 10 rows).
+// After a jump, the trend is therefore that of the samples in the window
+// that lie a jump or more below the far end seen just before it, when
+// the latest one does: the near mark's end, every other frame. (With the
+// trend started at the latest jump alone, 2 samples there, the stretch
+// was coasted over to the fail-safe, 6 frames later: 8 false-track
+// frames, against 2 with the near mark's samples.)
+//
 // (Unscaled, 2 rows of slack per sample asked a line's end to fall
 // faster than 60 rows/s at 30 frames/s at every size: the worn gap of
 // lane-reflections at 160×120 came down at 2 rows a frame, 60 rows/s,
@@ -95,7 +106,8 @@ type reachSample struct {
 // reachTrack holds the reach of the latest accepted measurements, oldest
 // first (at most reachKeep).
 type reachTrack struct {
-	s []reachSample
+	s   []reachSample
+	low []reachSample // scratch for shrinking
 }
 
 const reachKeep = 8
@@ -133,6 +145,27 @@ func (r *reachTrack) shrinking(now time.Duration, slack, jump float64) (rate flo
 		}
 	}
 	recent := r.s[i0:]
+	if jumped {
+		// The reach alternating between the near mark's end and the
+		// fitted far end (see the constants' comment): the trend is that
+		// of the window's samples a jump or more below the far end seen
+		// just before the latest jump, when the latest sample is one.
+		lim := r.s[i0-1].reach - jump
+		w0 := 0
+		for w0 < len(r.s) && now-r.s[w0].t > reachWindow {
+			w0++
+		}
+		if r.s[len(r.s)-1].reach < lim {
+			low := r.low[:0]
+			for _, p := range r.s[w0:] {
+				if p.reach < lim {
+					low = append(low, p)
+				}
+			}
+			r.low = low
+			recent = low
+		}
+	}
 	if len(recent) < reachMinSamples {
 		return 0, reachSample{}, jumped, false
 	}

@@ -96,6 +96,23 @@ func TestSeeingTheLineEnd(t *testing.T) {
 			// index 5, falling 364 rows/s, below 0 at index 6.
 			wantLost: 6, noneLostB: 6, wantNote: "far end running out",
 		},
+		"the near mark's end, seen between far ends, runs out": {
+			// The fitted line runs on across a stretch to the tape beyond
+			// on some frames (200 rows) and stops at the near mark's end
+			// on others (100, 80, 60, 40), which comes down 20 rows a
+			// frame: then nothing is found. The near mark's samples give
+			// the trend: 40 at index 5, falling 364 rows/s, below 0 at
+			// index 9 (after a jump the look-ahead does not apply). With
+			// the trend from the latest jump alone (60, 40) the track
+			// coasted to the fail-safe.
+			after: func(i int) guidance.Measurement {
+				if r, ok := map[int]float64{0: 100, 1: 200, 2: 80, 3: 200, 4: 60, 5: 40}[i]; ok {
+					return reaching(r)
+				}
+				return guidance.Measurement{}
+			},
+			wantLost: 9, noneLostB: 9, wantNote: "far end running out",
+		},
 		"a sudden drop of the reach is no trend of its own": {
 			// A drop from 200 to 90 and the line gone in the next
 			// frames: the drop is the measurement changing what it

@@ -1,6 +1,9 @@
 package vision
 
-import "math"
+import (
+	"iter"
+	"math"
+)
 
 // curve is x = a + b·t + c·t² with t = (y − y0)/scale, in working pixels.
 type curve struct {
@@ -705,14 +708,7 @@ func (c *Classical) widthFit(r *fitResult, l bandLayout, y0, sc float64, sel wid
 	}
 	ts, ws := c.rmT[:0], c.rmW[:0]
 	off := false
-	for _, i := range r.bands {
-		if i < 0 {
-			continue
-		}
-		cd := &c.cands[i]
-		if !sel.keeps(cd) {
-			continue
-		}
+	for cd := range c.widthInliers(r, sel) {
 		ts, ws = append(ts, (cd.y-y0)/sc), append(ws, cd.w)
 		off = off || widthOff(cd.w, wc.x(cd.y))
 	}
@@ -772,20 +768,28 @@ func (c *Classical) repeatedMedian(ts, ws []float64) (curve, bool) {
 	return curve{a: a, b: b, scale: 1}, true
 }
 
+// widthInliers yields the inliers of r that sel keeps, nearest band
+// first.
+func (c *Classical) widthInliers(r *fitResult, sel widthSel) iter.Seq[*candidate] {
+	return func(yield func(*candidate) bool) {
+		for _, i := range r.bands {
+			if i < 0 {
+				continue
+			}
+			if cd := &c.cands[i]; sel.keeps(cd) && !yield(cd) {
+				return
+			}
+		}
+	}
+}
+
 // widthLSQ is widthFit's weighted least-squares line over the inliers
 // sel keeps and, when prev is set (its scale not zero), lie within
 // widthOutlier of prev.
 func (c *Classical) widthLSQ(r *fitResult, l bandLayout, y0, sc float64, sel widthSel, prev curve) (curve, int) {
 	var sw, st, sw2, stt, stw float64
 	n := 0
-	for _, i := range r.bands {
-		if i < 0 {
-			continue
-		}
-		cd := &c.cands[i]
-		if !sel.keeps(cd) {
-			continue
-		}
+	for cd := range c.widthInliers(r, sel) {
 		if prev.scale != 0 && widthOff(cd.w, prev.x(cd.y)) {
 			continue
 		}

@@ -694,7 +694,8 @@ func (sel widthSel) keeps(cd *candidate) bool {
 // than three quarters of the crossings, the widths disagree too much to
 // say which are the line's own: a line made of unrelated marks (the rim
 // of a wide lens's image circle and rack posts, fisheye-tight at
-// 320×240, frame 280, reached confidence 0.54 without the rule), or a
+// 320×240, frame 280 of TestSynthImageCircleRim, reached confidence 0.54
+// without the rule), or a
 // branch merged with the stripe over much of the near half (branch at
 // 320×240, frame 107: 24 of 62 crossings, 34 px against the 24 px the
 // others lead to). There the least-squares line stands.

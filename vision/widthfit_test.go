@@ -34,38 +34,21 @@ func TestRepeatedMedian(t *testing.T) {
 // plain least squares does not (the check fails with widthFit reduced to
 // widthLSQ); where the widths disagree more widely, least squares stands.
 func TestWidthFitRobust(t *testing.T) {
-	l := bandLayout{x0: 0, x1: 320, y0: 0, y1: 240, step: 3, n: 80}
-	// True width at band k: 24 px at the bottom, 0.2 px less per band.
-	trueW := func(k int) float64 { return 24 - 0.2*float64(k) }
-	stretch := func(from, to int, f float64) func(int) float64 {
-		return func(k int) float64 {
-			if k >= from && k < to {
-				return f
-			}
-			return 1
-		}
-	}
+	l := widthLineLayout
+	trueW := widthLineTrue
 	tests := map[string]struct {
 		alter     func(k int) float64 // width factor of band k's crossing
 		robust    bool                // the profile is the true one (else least squares')
 		minErrLSQ float64             // least squares is at least this far off at the bottom
 	}{
-		"clean line":                    {alter: stretch(0, 0, 1), robust: true},
-		"merged branch near the camera": {alter: stretch(0, 14, 1.45), robust: true, minErrLSQ: 2},
-		"worn stretch in the middle":    {alter: stretch(20, 34, 0.6), robust: true, minErrLSQ: 0.5},
-		"widths disagree over a third":  {alter: stretch(0, 22, 1.45), robust: false},
+		"clean line":                    {alter: widthStretch(0, 0, 1), robust: true},
+		"merged branch near the camera": {alter: widthStretch(0, 14, 1.45), robust: true, minErrLSQ: 2},
+		"worn stretch in the middle":    {alter: widthStretch(20, 34, 0.6), robust: true, minErrLSQ: 0.5},
+		"widths disagree over a third":  {alter: widthStretch(0, 22, 1.45), robust: false},
 	}
 	for name, tc := range tests {
 		t.Run(name, func(t *testing.T) {
-			c := &Classical{cfg: DefaultConfig(), hairline: 0.006 * 320}
-			r := &fitResult{bands: make([]int, l.n)}
-			for k := range r.bands {
-				r.bands[k] = -1
-				if k < 62 {
-					r.bands[k] = len(c.cands)
-					c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: 100, w: trueW(k) * tc.alter(k), snr: 20})
-				}
-			}
+			c, r := widthLine(tc.alter)
 			y0, sc := 240.0, 240.0
 			wc, n := c.widthFit(r, l, y0, sc, widthAll)
 			ls, nls := c.widthLSQ(r, l, y0, sc, widthAll, curve{})
@@ -94,24 +77,47 @@ func BenchmarkWidthFitRobust(b *testing.B) { benchWidthFit(b, 1.45) }
 func BenchmarkWidthFitClean(b *testing.B)  { benchWidthFit(b, 1) }
 
 func benchWidthFit(b *testing.B, merged float64) {
-	l := bandLayout{x0: 0, x1: 320, y0: 0, y1: 240, step: 3, n: 80}
-	c := &Classical{cfg: DefaultConfig(), hairline: 0.006 * 320}
-	r := &fitResult{bands: make([]int, l.n)}
-	for k := range r.bands {
-		r.bands[k] = -1
-		if k < 62 {
-			w := 24 - 0.2*float64(k)
-			if k < 14 {
-				w *= merged
-			}
-			r.bands[k] = len(c.cands)
-			c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: 100, w: w, snr: 20})
-		}
-	}
+	c, r := widthLine(widthStretch(0, 14, merged))
+	l := widthLineLayout
 	c.widthFit(r, l, 240, 240, widthAll) // grow the scratch memory
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		c.widthFit(r, l, 240, 240, widthAll)
+	}
+}
+
+// widthLineLayout is the band layout of widthLine: 80 bands of 3 rows
+// over a 320×240 region.
+var widthLineLayout = bandLayout{x0: 0, x1: 320, y0: 0, y1: 240, step: 3, n: 80}
+
+// widthLineTrue is widthLine's true width at band k: 24 px at the
+// bottom, 0.2 px less per band.
+func widthLineTrue(k int) float64 { return 24 - 0.2*float64(k) }
+
+// widthLine is a detector holding a line of 62 crossings, one in each of
+// the nearest bands of widthLineLayout, whose widths are widthLineTrue
+// times alter(k), and the fit result with them as inliers.
+func widthLine(alter func(k int) float64) (*Classical, *fitResult) {
+	l := widthLineLayout
+	c := &Classical{cfg: DefaultConfig(), hairline: 0.006 * 320}
+	r := &fitResult{bands: make([]int, l.n)}
+	for k := range r.bands {
+		r.bands[k] = -1
+		if k < 62 {
+			r.bands[k] = len(c.cands)
+			c.cands = append(c.cands, candidate{band: k, y: l.centre(k), x: 100, w: widthLineTrue(k) * alter(k), snr: 20})
+		}
+	}
+	return c, r
+}
+
+// widthStretch is a width factor f over bands [from, to), 1 elsewhere.
+func widthStretch(from, to int, f float64) func(int) float64 {
+	return func(k int) float64 {
+		if k >= from && k < to {
+			return f
+		}
+		return 1
 	}
 }

@@ -147,6 +147,7 @@ const holdAfter = 2
 type candidate struct {
 	active    bool
 	n         int
+	misses    int // unusable frames in a row since its latest measurement
 	off, head KalmanCV
 	t         time.Duration
 	reach     reachTrack // the reach of the measurements it followed
@@ -407,7 +408,15 @@ func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 		t.state = Coasting
 		t.consec = 0
 		t.note = why
-		t.cand.active = false // a step must show in consecutive frames
+		// A step must show in consecutive frames, which may hold one
+		// unusable frame between them, as an acquisition run may
+		// (acquireMaxMisses). Right after a line stops sweeping, the
+		// detector, still handed the runaway prediction, rates the line
+		// in every other frame "ambiguous" or "far from the
+		// prediction" (fisheye-tight at 640×480, frames 233–239).
+		if t.cand.misses++; t.cand.misses > acquireMaxMisses {
+			t.cand.active = false
+		}
 		return
 	}
 	d2 := t.gateNIS(m)
@@ -438,6 +447,7 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		c.head.Predict(dt)
 		c.t = now
 		if nis(&c.off, &c.head, m) <= t.gate {
+			c.misses = 0
 			c.off.Update(m.OffsetPx)
 			c.head.Update(m.HeadingDeg)
 			c.n++
@@ -447,7 +457,7 @@ func (t *Tracker) stepCandidate(now time.Duration, m Measurement) {
 		}
 	}
 	if !c.active {
-		c.active, c.n, c.t = true, 1, now
+		c.active, c.n, c.misses, c.t = true, 1, 0, now
 		c.off.Init(m.OffsetPx, t.offsetRateSigma())
 		c.head.Init(m.HeadingDeg, t.cfg.HeadingRateSigma)
 		c.reach.reset()

@@ -148,6 +148,47 @@ func TestGateReacquiresGenuineStep(t *testing.T) {
 	}
 }
 
+// TestGateStepAcrossAnUnusableFrame: the measurements of a step may hold
+// one unusable frame (too unsure to use) between them, as an acquisition
+// run may; two in a row start the count again. The pattern is that of
+// fisheye-tight at 640×480, frames 236–239 (README scores): after a fast
+// sweep stops, the detector rates the moved line below the hold
+// confidence in every other frame.
+func TestGateStepAcrossAnUnusableFrame(t *testing.T) {
+	unsure := good(80, 2)
+	unsure.Confidence = 0.1
+	tests := map[string]struct {
+		frames   []guidance.Measurement
+		relocked bool // at the last frame
+	}{
+		"three agreeing, one unusable between":    {[]guidance.Measurement{good(80, 2), unsure, good(80, 2), good(80, 2)}, true},
+		"three agreeing, unusable between each":   {[]guidance.Measurement{good(80, 2), unsure, good(80, 2), unsure, good(80, 2)}, true},
+		"two unusable in a row restart the count": {[]guidance.Measurement{good(80, 2), good(80, 2), unsure, unsure, good(80, 2)}, false},
+		"no line in between counts as unusable":   {[]guidance.Measurement{good(80, 2), {}, {}, good(80, 2), good(80, 2)}, false},
+	}
+	for name, tc := range tests {
+		t.Run(name, func(t *testing.T) {
+			tr := newTracker(t, guidance.DefaultConfig())
+			now := lockOn(t, tr, 0, 0, time.Second)
+			var e guidance.Estimate
+			for i, m := range tc.frames {
+				e = tr.Update(now, m)
+				now += 33 * ms
+				if e.Alarm || !e.Tracking {
+					t.Fatalf("frame %d: %+v, must stay tracking (no alarm)", i, e)
+				}
+				if i < len(tc.frames)-1 && e.State == guidance.Holding {
+					t.Fatalf("frame %d of %d: re-locked early: %+v", i, len(tc.frames), e)
+				}
+			}
+			moved := e.State == guidance.Holding && math.Abs(e.OffsetPx-80) < 1
+			if moved != tc.relocked {
+				t.Errorf("last frame %+v: re-locked %v, want %v", e, moved, tc.relocked)
+			}
+		})
+	}
+}
+
 func TestGateAlternatingOutliersNeverRelock(t *testing.T) {
 	// Outliers that disagree with each other are not a step: the track
 	// stays on the true line.

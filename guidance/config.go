@@ -36,7 +36,9 @@ type Config struct {
 	GateProbability float64 `yaml:"gate_probability"`
 	// StepConfirmFrames: this many consecutive gate-rejected
 	// measurements that agree with each other are taken as a real move
-	// of the line, and the track jumps to them.
+	// of the line, and the track jumps to them. One unusable frame (no
+	// line, or one below HoldConfidence) may fall between two of them;
+	// two in a row start the count again.
 	StepConfirmFrames int `yaml:"step_confirm_frames"`
 
 	// The pixel settings below (OffsetNoisePx, OffsetAccel,

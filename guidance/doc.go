@@ -15,7 +15,9 @@
 // squared exceeds the chi-square quantile of GateProbability with 2 degrees
 // of freedom (9.21 at 0.99) is rejected and the track coasts on its
 // prediction. StepConfirmFrames rejected measurements in a row that agree
-// with each other mean the line really moved, and the track jumps to them.
+// with each other (one unusable frame may fall between two of them, as in
+// an acquisition run) mean the line really moved, and the track jumps to
+// them.
 //
 // Three copies of the filters run side by side with the process noise
 // scaled ×1, ×4 and ×16 (models.go); the one whose recent measurements are

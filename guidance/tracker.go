@@ -411,9 +411,11 @@ func (t *Tracker) updateLocked(now time.Duration, m Measurement) {
 		// A step must show in consecutive frames, which may hold one
 		// unusable frame between them, as an acquisition run may
 		// (acquireMaxMisses). Right after a line stops sweeping, the
-		// detector, still handed the runaway prediction, rates the line
-		// in every other frame "ambiguous" or "far from the
-		// prediction" (fisheye-tight at 640×480, frames 233–239).
+		// detector may rate the moved line below HoldConfidence in
+		// every other frame: fisheye-tight at 640×480, frames 233–239,
+		// "ambiguous" (the bend ahead read as a second line, with or
+		// without the prediction as a prior) and "far from the
+		// prediction" in turn.
 		if t.cand.misses++; t.cand.misses > acquireMaxMisses {
 			t.cand.active = false
 		}

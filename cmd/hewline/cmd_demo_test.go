@@ -1,6 +1,7 @@
 package main
 
 import (
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -77,6 +78,27 @@ func TestDemoSizesAndBaseline(t *testing.T) {
 	b, _ := os.ReadFile(readme)
 	if s := string(b); strings.Contains(s, "old") || !strings.Contains(s, "### 160×120") || !strings.HasSuffix(s, "<!-- scores:end -->\ntail\n") {
 		t.Errorf("README not filled between the markers:\n%s", s)
+	}
+
+	// misses on the demo's own log and truth: its right frames are the
+	// table's recall × 300, and its first run is the start, spent seeking
+	// for the 0.2 s the tracker sees a line before it trusts it (6 frames
+	// at 30 frames/s).
+	code, mo, me := runCmd(t, "misses", filepath.Join(out, "weave@160x120.track.ndjson"), filepath.Join(out, "weave@160x120.truth.ndjson"))
+	if code != 0 {
+		t.Fatalf("misses exit %d: %s", code, me)
+	}
+	var recall float64
+	for _, l := range strings.Split(stdout, "\n") {
+		if strings.HasPrefix(l, "| weave | 300 | 300 | ") {
+			fmt.Sscanf(strings.TrimPrefix(l, "| weave | 300 | 300 | "), "%f", &recall)
+		}
+	}
+	if want := fmt.Sprintf("300 frames; right %d,", int(math.Round(recall*300))); recall == 0 || !strings.Contains(mo, want) {
+		t.Errorf("misses output lacks %q (recall %.3f):\n%s", want, recall, mo)
+	}
+	if !strings.Contains(mo, "\n  frames 0–5 (6): missed, ") || !strings.Contains(mo, "; seeking; tracker: ") {
+		t.Errorf("misses: the first run is not the 6 seeking frames:\n%s", mo)
 	}
 }
 

@@ -92,6 +92,7 @@ func TestBadFiles(t *testing.T) {
 		"verify":       {"verify", "FILE"},
 		"report":       {"report", "-o", filepath.Join(out, "r.html"), "FILE"},
 		"compare":      {"compare", "FILE", "FILE"},
+		"misses":       {"misses", "FILE", "FILE"},
 		"calib lens":   {"calib", "lens", "-o", filepath.Join(out, "c.json"), "FILE"},
 		"calib floor":  {"calib", "floor", "-calib", "FILE", "-height", "500", "-pitch", "30"},
 		"train site":   {"train", "-o", filepath.Join(out, "m.onnx"), "-epochs", "1", "-frames", "8", "-site", "FILE"},

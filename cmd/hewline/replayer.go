@@ -473,25 +473,35 @@ func newWAVPlayer(path string) (*audio.Player, error) {
 
 // scoreClip scores a replayed clip's log against a truth file.
 func scoreClip(name, logPath, truthPath string) (*score.Result, error) {
+	h, frames, l, err := readLogAndTruth(logPath, truthPath)
+	if err != nil {
+		return nil, err
+	}
+	return score.Clip(name, h, frames, l.Records)
+}
+
+// readLogAndTruth reads the track log at logPath and the truth file at
+// truthPath; errors name the file.
+func readLogAndTruth(logPath, truthPath string) (truth.Header, []truth.Frame, *tracklog.Log, error) {
 	tf, err := os.Open(truthPath)
 	if err != nil {
-		return nil, fmt.Errorf("truth %s: %w", truthPath, err)
+		return truth.Header{}, nil, nil, fmt.Errorf("truth %s: %w", truthPath, err)
 	}
 	defer tf.Close()
 	h, frames, err := truth.Read(tf)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", truthPath, err)
+		return truth.Header{}, nil, nil, fmt.Errorf("%s: %w", truthPath, err)
 	}
 	lf, err := os.Open(logPath)
 	if err != nil {
-		return nil, err
+		return truth.Header{}, nil, nil, err
 	}
 	defer lf.Close()
 	l, err := tracklog.Read(lf)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", logPath, err)
+		return truth.Header{}, nil, nil, fmt.Errorf("%s: %w", logPath, err)
 	}
-	return score.Clip(name, h, frames, l.Records)
+	return h, frames, l, nil
 }
 
 // printSummary writes a short human summary of one clip.

@@ -115,22 +115,15 @@ func percentile(xs []float64, p float64) float64 {
 // Clip scores one clip. records and frames must describe the same frames
 // (same count, same indices).
 func Clip(name string, h truth.Header, frames []truth.Frame, records []tracklog.Record) (*Result, error) {
-	if len(frames) != len(records) {
-		return nil, fmt.Errorf("score %s: truth has %d frames, the track log %d", name, len(frames), len(records))
+	if err := matchable(h, frames, records); err != nil {
+		return nil, fmt.Errorf("score %s: %w", name, err)
 	}
-	if h.Width <= 0 || h.Height <= 0 {
-		return nil, fmt.Errorf("score %s: truth header has no frame size", name)
-	}
-	scale := float64(h.Width) / 640
-	tol, falseTol := TolPxAt640*scale, FalseTrackAt640*scale
+	tol, falseTol := tolerances(h)
 	r := &Result{Name: name, Frames: len(frames)}
 	lossAt := -1.0 // time of the current loss, or −1
 	lastInvisibleT := math.Inf(-1)
 	for i, tf := range frames {
 		rec := records[i]
-		if rec.Frame != tf.Frame {
-			return nil, fmt.Errorf("score %s: record %d is frame %d, truth frame %d", name, i, rec.Frame, tf.Frame)
-		}
 		// Alarm bookkeeping.
 		onset := rec.Alarm && i > 0 && !records[i-1].Alarm
 		if !tf.Visible {
@@ -153,14 +146,14 @@ func Clip(name string, h truth.Header, frames []truth.Frame, records []tracklog.
 			r.FalseAlarms++
 		}
 
+		v, err, frac, ok := judge(tf, rec, h.Height, tol, falseTol)
+		if v == False {
+			r.FalseTracks++
+		}
 		if !tf.Visible {
-			if rec.Tracking {
-				r.FalseTracks++
-			}
 			continue
 		}
 		r.VisibleFrames++
-		err, frac, ok := frameError(tf, guided(rec), h.Height, tol)
 		if rec.Tracking {
 			r.TrackedVisible++
 			if ok {
@@ -168,9 +161,6 @@ func Clip(name string, h truth.Header, frames []truth.Frame, records []tracklog.
 			}
 			if frac >= MatchFraction {
 				r.CorrectFrames++
-			}
-			if !ok || err > falseTol {
-				r.FalseTracks++
 			}
 		}
 		if len(rec.Points) > 0 {
@@ -188,6 +178,30 @@ func Clip(name string, h truth.Header, frames []truth.Frame, records []tracklog.
 		r.MissedAlarms++
 	}
 	return r, nil
+}
+
+// matchable checks that records can be scored against frames and h: one
+// record per truth frame, in the same order, and a frame size.
+func matchable(h truth.Header, frames []truth.Frame, records []tracklog.Record) error {
+	if len(frames) != len(records) {
+		return fmt.Errorf("truth has %d frames, the track log %d", len(frames), len(records))
+	}
+	if h.Width <= 0 || h.Height <= 0 {
+		return fmt.Errorf("truth header has no frame size")
+	}
+	for i, tf := range frames {
+		if records[i].Frame != tf.Frame {
+			return fmt.Errorf("record %d is frame %d, truth frame %d", i, records[i].Frame, tf.Frame)
+		}
+	}
+	return nil
+}
+
+// tolerances are the match tolerance and the false-track limit at h's
+// width (TolPxAt640 and FalseTrackAt640 scaled).
+func tolerances(h truth.Header) (tol, falseTol float64) {
+	scale := float64(h.Width) / 640
+	return TolPxAt640 * scale, FalseTrackAt640 * scale
 }
 
 // guided is the centreline guidance ran on in rec: the predicted line while

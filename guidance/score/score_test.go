@@ -19,12 +19,10 @@ func vertical(x float64) [][2]float64 {
 	return p
 }
 
-// TestWorkedExample checks the rules on a 30 fps clip worked out by hand:
-// frames 0–29 visible, 30–44 a gap, 45–59 visible again.
-func TestWorkedExample(t *testing.T) {
-	h := truth.Header{Width: 640, Height: 480, FPS: 30}
-	var tf []truth.Frame
-	var rec []tracklog.Record
+// workedExample is a 30 fps clip worked out by hand: frames 0–29
+// visible, 30–44 a gap, 45–59 visible again, tracked as the comments say.
+func workedExample() (h truth.Header, tf []truth.Frame, rec []tracklog.Record) {
+	h = truth.Header{Width: 640, Height: 480, FPS: 30}
 	for i := 0; i < 60; i++ {
 		ti := float64(i) / 30
 		vis := i < 30 || i >= 45
@@ -50,6 +48,12 @@ func TestWorkedExample(t *testing.T) {
 		}
 		rec = append(rec, r)
 	}
+	return h, tf, rec
+}
+
+// TestWorkedExample checks the rules on workedExample.
+func TestWorkedExample(t *testing.T) {
+	h, tf, rec := workedExample()
 	r, err := score.Clip("worked", h, tf, rec)
 	if err != nil {
 		t.Fatal(err)

@@ -23,6 +23,10 @@
 //     ends) counts as a missed alarm.
 //   - False alarm: an alarm onset (off → on, not at the first frame) while
 //     the truth has shown the line for the whole preceding second.
+//
+// Clip counts these over a clip; Frames gives the same judgement frame by
+// frame and Runs groups the frames it counts against the tracker (the
+// hewline misses command).
 package score
 
 import (
